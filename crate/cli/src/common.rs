@@ -1,0 +1,61 @@
+//! Options and file reading shared by the subcommands.
+
+use crate::args::Args;
+use digitdrift_core::intake::{DateOrder, DecimalConvention, Intake, IntakeOptions, IntakeResult};
+use digitdrift_core::Amount;
+use std::io::Read;
+
+/// Flags every ledger-reading subcommand accepts.
+pub fn intake_options(a: &Args) -> Result<IntakeOptions, String> {
+    let mut o = IntakeOptions::default();
+    o.supplier = a.get("supplier").map(String::from);
+    o.amount = a.get("amount").map(String::from);
+    o.date = a.get("date").map(String::from);
+    o.invoice = a.get("invoice").map(String::from);
+    o.decimal = match a.get("decimal") {
+        None => None,
+        Some("comma") => Some(DecimalConvention::Comma),
+        Some("point") => Some(DecimalConvention::Point),
+        Some(v) => return Err(format!("--decimal takes comma or point, not '{v}'")),
+    };
+    o.date_order = match a.get("date-order") {
+        None => None,
+        Some("dmy") => Some(DateOrder::Dmy),
+        Some("mdy") => Some(DateOrder::Mdy),
+        Some("ymd") => Some(DateOrder::Ymd),
+        Some(v) => return Err(format!("--date-order takes dmy, mdy or ymd, not '{v}'")),
+    };
+    if let Some(m) = a.get("min-amount") {
+        let v = digitdrift_core::intake::parse_amount_simple(m)
+            .ok_or_else(|| format!("--min-amount: cannot read '{m}'"))?;
+        o.min_amount = Amount(v.0.abs());
+    }
+    Ok(o)
+}
+
+/// Stream a file (or `-` for standard input) through the intake in 1 MiB chunks.
+pub fn read_ledger(path: &str, opts: IntakeOptions) -> Result<IntakeResult, String> {
+    let mut intake = Intake::new(opts);
+    let mut src: Box<dyn Read> = if path == "-" {
+        Box::new(std::io::stdin())
+    } else {
+        Box::new(std::fs::File::open(path).map_err(|e| format!("{path}: {e}"))?)
+    };
+    let mut buf = vec![0u8; 1 << 20];
+    loop {
+        let k = src.read(&mut buf).map_err(|e| format!("{path}: {e}"))?;
+        if k == 0 {
+            break;
+        }
+        intake.feed(&buf[..k]).map_err(|e| format!("{path}: {e}"))?;
+    }
+    intake.finish().map_err(|e| format!("{path}: {e}"))
+}
+
+pub fn format_flag(a: &Args) -> Result<bool, String> {
+    match a.get("format") {
+        None | Some("text") => Ok(false),
+        Some("json") => Ok(true),
+        Some(v) => Err(format!("--format takes json or text, not '{v}'")),
+    }
+}

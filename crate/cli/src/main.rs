@@ -1,0 +1,42 @@
+//! `digitdrift` command line. Exit status: 0 fine, 2 bad input or usage, 3 `watch` found a
+//! supplier in alarm.
+
+mod args;
+mod common;
+mod screen;
+
+use std::process::ExitCode;
+
+const USAGE: &str = "digitdrift — Benford digit screening of supplier invoices, locally
+
+usage:
+  digitdrift screen FILE [--supplier COL] [--amount COL] [--date COL] [--invoice COL]
+                         [--decimal comma|point] [--date-order dmy|mdy|ymd] [--min-amount X]
+                         [--format json|text]
+
+COL is a header name or a 1-based column number. A digit deviation is a reason to look,
+not proof of wrongdoing.";
+
+fn main() -> ExitCode {
+    let raw: Vec<String> = std::env::args().skip(1).collect();
+    let Some(cmd) = raw.first() else {
+        eprintln!("{USAGE}");
+        return ExitCode::from(2);
+    };
+    let rest = &raw[1..];
+    let r = match cmd.as_str() {
+        "screen" => screen::run(rest),
+        "-h" | "--help" | "help" => {
+            println!("{USAGE}");
+            Ok(0)
+        }
+        other => Err(format!("unknown command '{other}'\n\n{USAGE}")),
+    };
+    match r {
+        Ok(code) => ExitCode::from(code),
+        Err(msg) => {
+            eprintln!("digitdrift: {msg}");
+            ExitCode::from(2)
+        }
+    }
+}

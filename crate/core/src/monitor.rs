@@ -1,0 +1,1 @@
+//! (lands with its issue)
