@@ -4,6 +4,7 @@
 mod args;
 mod common;
 mod screen;
+mod watch;
 
 use std::process::ExitCode;
 
@@ -26,6 +27,7 @@ fn main() -> ExitCode {
     let rest = &raw[1..];
     let r = match cmd.as_str() {
         "screen" => screen::run(rest),
+        "watch" => watch::run(rest),
         "-h" | "--help" | "help" => {
             println!("{USAGE}");
             Ok(0)

@@ -1,0 +1,4 @@
+//! `digitdrift watch` (continuous monitoring) — lands with its issue.
+pub fn run(_raw: &[String]) -> Result<u8, String> {
+    Err("watch is not built yet".into())
+}
