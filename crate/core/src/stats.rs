@@ -86,6 +86,45 @@ pub fn binomial_band(p: f64, n: u64) -> (f64, f64) {
     ((p - half).max(0.0), (p + half).min(1.0))
 }
 
+/// Upper tail P(X >= k) of a binomial(n, p) variable, via the regularised incomplete beta
+/// function: P(X >= k) = I_p(k, n - k + 1) (standard identity, e.g. Abramowitz & Stegun 26.5.24).
+pub fn binom_sf_ge(k: u64, n: u64, p: f64) -> f64 {
+    if k == 0 {
+        return 1.0;
+    }
+    if k > n {
+        return 0.0;
+    }
+    if p <= 0.0 {
+        return 0.0;
+    }
+    if p >= 1.0 {
+        return 1.0;
+    }
+    statrs::function::beta::beta_reg(k as f64, (n - k + 1) as f64, p).clamp(0.0, 1.0)
+}
+
+/// Two-sided normal p-value 2 * (1 - Phi(|z|)) = erfc(|z| / sqrt 2).
+pub fn normal_two_sided(z: f64) -> f64 {
+    if !z.is_finite() {
+        return 0.0;
+    }
+    statrs::function::erf::erfc(z.abs() / std::f64::consts::SQRT_2).clamp(0.0, 1.0)
+}
+
+/// Flag of one bin from its Z: 0 none, 1 at |Z| > 1.96 (5 % two-sided), 2 at |Z| > 2.576 (1 %).
+/// Critical values of the standard normal (any normal table).
+pub fn z_flag(z: f64) -> u8 {
+    let a = z.abs();
+    if a > 2.576 {
+        2
+    } else if a > 1.96 {
+        1
+    } else {
+        0
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

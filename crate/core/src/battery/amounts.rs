@@ -1,0 +1,379 @@
+//! Amount checks beside the digits: most frequent exact amounts, round amounts, possible
+//! duplicate invoices, clusters just below approval limits. Every item that lists invoices
+//! carries their indices into the population slice given to [`super::run`].
+
+use super::sort::{radix_sort, Keyed};
+use super::BatteryOptions;
+use crate::amount::{Amount, SCALE};
+use crate::ledger::{Invoice, NO_DATE};
+use crate::stats;
+use serde::Serialize;
+
+pub const AMOUNT_NOTE: &str = "Amount checks point at invoices worth a look. Repeated, round or \
+near-limit amounts have many innocent causes (fixed fees, instalments, price lists); do not accuse \
+a supplier on them alone.";
+
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct FrequentAmount {
+    pub amount: Amount,
+    pub count: u64,
+    /// count / n.
+    pub share: f64,
+    pub invoices: Vec<usize>,
+    pub invoices_truncated: bool,
+}
+
+/// One level of roundness. `conditional_rate` is count / base, where the base is the coarser
+/// level (all amounts for `.00`; `.00` amounts >= 100 for whole hundreds; whole hundreds >= 1000
+/// for whole thousands), so each level is judged against the population's own rate one level
+/// up. `reference_rate` is what uniform trailing digits would give; `p_value` is the binomial
+/// upper tail P(X >= count | base, reference_rate).
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct RoundLevel {
+    pub level: &'static str,
+    pub count: u64,
+    /// count / n.
+    pub rate: f64,
+    pub base: u64,
+    pub base_description: &'static str,
+    pub conditional_rate: f64,
+    pub reference_rate: f64,
+    pub p_value: f64,
+    pub invoices: Vec<usize>,
+    pub invoices_truncated: bool,
+}
+
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct RoundAmounts {
+    pub n: u64,
+    pub levels: Vec<RoundLevel>,
+    pub reference: &'static str,
+}
+
+pub const ROUND_REFERENCE: &str = "Reference rates assume uniform trailing digits: 1/100 for cents \
+of .00, 1/100 for a .00 amount of at least 100 to be a whole hundred, 1/10 for a whole hundred of at \
+least 1000 to be a whole thousand (common practice, no source; for 3-digit amounts Benford's second \
+digit makes 00 slightly likelier, about 1.2 %). Compare a supplier's rates with the whole file's too.";
+
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct DuplicateGroup {
+    /// "same_amount_date" (same supplier, amount and date) or "same_number" (same supplier and
+    /// invoice number).
+    pub kind: &'static str,
+    pub supplier: u32,
+    /// The amount (for same_number: the largest amount in the group).
+    pub amount: Amount,
+    /// Days since 1970-01-01 (same_amount_date only).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub date: Option<i32>,
+    pub count: u64,
+    /// Sum of the amounts beyond the first invoice of the group (paid twice if a true duplicate).
+    pub extra_amount: Amount,
+    pub invoices: Vec<usize>,
+}
+
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct Duplicates {
+    pub same_amount_date_groups: u64,
+    pub same_amount_date_invoices: u64,
+    pub same_number_groups: u64,
+    pub same_number_invoices: u64,
+    /// Invoices without a date (not checked for same amount + date).
+    pub undated: u64,
+    /// Invoices without an invoice number (not checked for same number).
+    pub unnumbered: u64,
+    /// Largest extra amount first.
+    pub groups: Vec<DuplicateGroup>,
+    pub groups_truncated: bool,
+}
+
+/// A cluster check just below one approval limit L: the window [low, L) against two
+/// neighbouring bands of three times its width on a log scale, [band_low, low) and
+/// [L, band_high). If amounts were spread evenly on a log scale near L (a locally smooth
+/// density; common practice, no source — our own design), each of the N invoices in
+/// [band_low, band_high) falls in the window with probability `expected_share` =
+/// log(L/low) / log(band_high/band_low); `p_value` = P(X >= count) for X ~ binomial(N, share).
+/// Invoices split to stay below L also thin out the band above L, which this design counts.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct LimitCluster {
+    pub limit: Amount,
+    pub window_low: Amount,
+    pub band_low: Amount,
+    pub band_high: Amount,
+    pub count: u64,
+    pub below_band_count: u64,
+    pub above_band_count: u64,
+    pub expected_share: f64,
+    pub expected: f64,
+    /// count / expected (null when nothing is expected).
+    pub ratio: f64,
+    pub p_value: f64,
+    pub invoices: Vec<usize>,
+    pub invoices_truncated: bool,
+}
+
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct AmountChecks {
+    /// Nonzero amounts examined.
+    pub n: u64,
+    pub distinct_amounts: u64,
+    pub most_frequent: Vec<FrequentAmount>,
+    pub round: RoundAmounts,
+    pub duplicates: Duplicates,
+    /// One per approval limit given (default none).
+    pub limits: Vec<LimitCluster>,
+    pub note: &'static str,
+}
+
+fn capped(mut v: Vec<usize>, cap: usize) -> (Vec<usize>, bool) {
+    v.sort_unstable();
+    let t = v.len() > cap;
+    v.truncate(cap);
+    (v, t)
+}
+
+pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &BatteryOptions) -> AmountChecks {
+    let n = sorted.len() as u64;
+    let cap = opts.max_listed;
+
+    // Runs of equal amounts in the sorted keys.
+    let mut runs: Vec<(usize, usize)> = Vec::new(); // (start, len) with len >= 2
+    let mut distinct = 0u64;
+    let mut i = 0;
+    while i < sorted.len() {
+        let mut j = i + 1;
+        while j < sorted.len() && sorted[j].key == sorted[i].key {
+            j += 1;
+        }
+        distinct += 1;
+        if j - i >= 2 {
+            runs.push((i, j - i));
+        }
+        i = j;
+    }
+
+    // Most frequent exact amounts (ties: larger amount first).
+    let mut top = runs.clone();
+    top.sort_by(|a, b| b.1.cmp(&a.1).then(sorted[b.0].key.cmp(&sorted[a.0].key)));
+    top.truncate(opts.top_amounts);
+    let most_frequent = top
+        .iter()
+        .map(|&(s, l)| {
+            let (inv, t) = capped(sorted[s..s + l].iter().map(|k| k.idx as usize).collect(), cap);
+            FrequentAmount {
+                amount: Amount(sorted[s].key as i64),
+                count: l as u64,
+                share: l as f64 / n as f64,
+                invoices: inv,
+                invoices_truncated: t,
+            }
+        })
+        .collect();
+
+    // Round amounts.
+    let (mut c00, mut b100, mut c100, mut b1000, mut c1000) = (0u64, 0u64, 0u64, 0u64, 0u64);
+    let (mut l00, mut l100, mut l1000) = (Vec::new(), Vec::new(), Vec::new());
+    for (i, inv) in invoices.iter().enumerate() {
+        let v = inv.amount.0.unsigned_abs();
+        if v == 0 || v % SCALE as u64 != 0 {
+            continue;
+        }
+        c00 += 1;
+        if l00.len() <= cap {
+            l00.push(i);
+        }
+        let w = v / SCALE as u64;
+        if w < 100 {
+            continue;
+        }
+        b100 += 1;
+        if w % 100 != 0 {
+            continue;
+        }
+        c100 += 1;
+        if l100.len() <= cap {
+            l100.push(i);
+        }
+        if w < 1000 {
+            continue;
+        }
+        b1000 += 1;
+        if w % 1000 == 0 {
+            c1000 += 1;
+            if l1000.len() <= cap {
+                l1000.push(i);
+            }
+        }
+    }
+    let level = |level, count: u64, base: u64, base_description, reference_rate: f64, list: Vec<usize>| {
+        let (inv, t) = capped(list, cap);
+        RoundLevel {
+            level,
+            count,
+            rate: if n == 0 { 0.0 } else { count as f64 / n as f64 },
+            base,
+            base_description,
+            conditional_rate: if base == 0 { 0.0 } else { count as f64 / base as f64 },
+            reference_rate,
+            p_value: stats::binom_sf_ge(count, base, reference_rate),
+            invoices: inv,
+            invoices_truncated: t,
+        }
+    };
+    let round = RoundAmounts {
+        n,
+        levels: vec![
+            level("cents_00", c00, n, "all amounts", 0.01, l00),
+            level("whole_hundreds", c100, b100, "amounts with .00 cents and at least 100", 0.01, l100),
+            level("whole_thousands", c1000, b1000, "whole hundreds of at least 1000", 0.1, l1000),
+        ],
+        reference: ROUND_REFERENCE,
+    };
+
+    // Possible duplicates.
+    let mut groups: Vec<DuplicateGroup> = Vec::new();
+    let (mut sad_g, mut sad_i, mut sn_g, mut sn_i) = (0u64, 0u64, 0u64, 0u64);
+    let mut local: Vec<(u32, i32, u32)> = Vec::new();
+    for &(s, l) in &runs {
+        local.clear();
+        for k in &sorted[s..s + l] {
+            let inv = invoices[k.idx as usize];
+            if inv.date != NO_DATE {
+                local.push((inv.supplier, inv.date, k.idx));
+            }
+        }
+        local.sort_unstable();
+        let mut a = 0;
+        while a < local.len() {
+            let mut b = a + 1;
+            while b < local.len() && local[b].0 == local[a].0 && local[b].1 == local[a].1 {
+                b += 1;
+            }
+            if b - a >= 2 {
+                sad_g += 1;
+                sad_i += (b - a) as u64;
+                let amt = Amount(sorted[s].key as i64);
+                groups.push(DuplicateGroup {
+                    kind: "same_amount_date",
+                    supplier: local[a].0,
+                    amount: amt,
+                    date: Some(local[a].1),
+                    count: (b - a) as u64,
+                    extra_amount: Amount(amt.0.saturating_mul((b - a - 1) as i64)),
+                    invoices: local[a..b].iter().map(|x| x.2 as usize).collect(),
+                });
+            }
+            a = b;
+        }
+    }
+    let undated = invoices.iter().filter(|i| i.date == NO_DATE).count() as u64;
+    let mut numbered: Vec<Keyed> = invoices
+        .iter()
+        .enumerate()
+        .filter(|(_, inv)| inv.invoice_hash != 0)
+        .map(|(i, inv)| Keyed {
+            key: inv.invoice_hash ^ (inv.supplier as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15),
+            idx: i as u32,
+        })
+        .collect();
+    let unnumbered = invoices.len() as u64 - numbered.len() as u64;
+    radix_sort(&mut numbered);
+    let mut local2: Vec<(u32, u64, u32)> = Vec::new();
+    let mut i = 0;
+    while i < numbered.len() {
+        let mut j = i + 1;
+        while j < numbered.len() && numbered[j].key == numbered[i].key {
+            j += 1;
+        }
+        if j - i >= 2 {
+            local2.clear();
+            local2.extend(numbered[i..j].iter().map(|k| {
+                let inv = invoices[k.idx as usize];
+                (inv.supplier, inv.invoice_hash, k.idx)
+            }));
+            local2.sort_unstable();
+            let mut a = 0;
+            while a < local2.len() {
+                let mut b = a + 1;
+                while b < local2.len() && local2[b].0 == local2[a].0 && local2[b].1 == local2[a].1 {
+                    b += 1;
+                }
+                if b - a >= 2 {
+                    sn_g += 1;
+                    sn_i += (b - a) as u64;
+                    let idx: Vec<usize> = local2[a..b].iter().map(|x| x.2 as usize).collect();
+                    let amts: Vec<i64> = idx.iter().map(|&x| invoices[x].amount.0.saturating_abs()).collect();
+                    let max = *amts.iter().max().unwrap();
+                    let total: i64 = amts.iter().fold(0i64, |s, &x| s.saturating_add(x));
+                    groups.push(DuplicateGroup {
+                        kind: "same_number",
+                        supplier: local2[a].0,
+                        amount: Amount(max),
+                        date: None,
+                        count: (b - a) as u64,
+                        extra_amount: Amount(total.saturating_sub(amts[0])),
+                        invoices: idx,
+                    });
+                }
+                a = b;
+            }
+        }
+        i = j;
+    }
+    groups.sort_by(|a, b| b.extra_amount.cmp(&a.extra_amount).then(a.invoices.cmp(&b.invoices)));
+    let groups_truncated = groups.len() > opts.max_duplicate_groups;
+    groups.truncate(opts.max_duplicate_groups);
+    let duplicates = Duplicates {
+        same_amount_date_groups: sad_g,
+        same_amount_date_invoices: sad_i,
+        same_number_groups: sn_g,
+        same_number_invoices: sn_i,
+        undated,
+        unnumbered,
+        groups,
+        groups_truncated,
+    };
+
+    let limits = opts
+        .approval_limits
+        .iter()
+        .filter(|l| l.0 > 0)
+        .map(|&l| limit_cluster(sorted, l, opts.limit_window, cap))
+        .collect();
+
+    AmountChecks { n, distinct_amounts: distinct, most_frequent, round, duplicates, limits, note: AMOUNT_NOTE }
+}
+
+fn limit_cluster(sorted: &[Keyed], limit: Amount, window: f64, cap: usize) -> LimitCluster {
+    let w = window.clamp(1e-6, 0.9);
+    let lv = limit.0 as f64;
+    let low = ((lv * (1.0 - w)).round() as u64).max(1);
+    let hi = limit.0 as u64;
+    let r = (hi as f64 / low as f64).powi(3);
+    let band_low = ((low as f64 / r).round() as u64).max(1);
+    let band_high = (hi as f64 * r).round() as u64;
+    let pos = |x: u64| sorted.partition_point(|k| k.key < x);
+    let (p_bl, p_l, p_h, p_bh) = (pos(band_low), pos(low), pos(hi), pos(band_high));
+    let count = (p_h - p_l) as u64;
+    let below = (p_l - p_bl) as u64;
+    let above = (p_bh - p_h) as u64;
+    let total = count + below + above;
+    let share = (hi as f64 / low as f64).ln() / (band_high as f64 / band_low as f64).ln();
+    let expected = share * total as f64;
+    let (inv, t) = capped(sorted[p_l..p_h].iter().map(|k| k.idx as usize).collect(), cap);
+    LimitCluster {
+        limit,
+        window_low: Amount(low as i64),
+        band_low: Amount(band_low as i64),
+        band_high: Amount(band_high as i64),
+        count,
+        below_band_count: below,
+        above_band_count: above,
+        expected_share: share,
+        expected,
+        ratio: if expected > 0.0 { count as f64 / expected } else { f64::NAN },
+        p_value: stats::binom_sf_ge(count, total, share),
+        invoices: inv,
+        invoices_truncated: t,
+    }
+}
