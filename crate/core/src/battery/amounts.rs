@@ -104,6 +104,7 @@ pub struct LimitCluster {
     pub below_band_count: u64,
     pub above_band_count: u64,
     pub expected_share: f64,
+    /// Count expected in the window from the two neighbouring bands alone.
     pub expected: f64,
     /// count / expected (null when nothing is expected).
     pub ratio: f64,
@@ -358,8 +359,10 @@ fn limit_cluster(sorted: &[Keyed], limit: Amount, window: f64, cap: usize) -> Li
     let below = (p_l - p_bl) as u64;
     let above = (p_bh - p_h) as u64;
     let total = count + below + above;
-    let share = (hi as f64 / low as f64).ln() / (band_high as f64 / band_low as f64).ln();
-    let expected = share * total as f64;
+    let lw = (hi as f64 / low as f64).ln();
+    let share = lw / (band_high as f64 / band_low as f64).ln();
+    // Expected from the neighbours alone (density per log unit times the window's log width).
+    let expected = (below + above) as f64 * lw / ((low as f64 / band_low as f64).ln() + (band_high as f64 / hi as f64).ln());
     let (inv, t) = capped(sorted[p_l..p_h].iter().map(|k| k.idx as usize).collect(), cap);
     LimitCluster {
         limit,
