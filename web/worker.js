@@ -1,0 +1,70 @@
+// digitdrift Worker: all parsing and statistics run here, off the page's thread.
+// `wasm_bindgen` (the no-modules glue) is prepended to this text by the page.
+'use strict';
+const CHUNK = 1 << 20; // 1 MiB slices: memory stays bounded whatever the file size.
+let session = null;
+let cancelled = false;
+let ready = null;
+
+function post(msg) { self.postMessage(msg); }
+
+async function demoBlob(b64) {
+  const bin = atob(b64);
+  const bytes = new Uint8Array(bin.length);
+  for (let i = 0; i < bin.length; i++) bytes[i] = bin.charCodeAt(i);
+  const stream = new Blob([bytes]).stream().pipeThrough(new DecompressionStream('gzip'));
+  const parts = [];
+  const reader = stream.getReader();
+  for (;;) { const { done, value } = await reader.read(); if (done) break; parts.push(value); }
+  return new Blob(parts, { type: 'text/csv' });
+}
+
+async function openLedger(id, blob, name, options) {
+  cancelled = false;
+  session = new wasm_bindgen.Session(options || {});
+  const total = blob.size;
+  let done = 0;
+  const t0 = performance.now();
+  while (done < total) {
+    if (cancelled) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
+    const end = Math.min(total, done + CHUNK);
+    const buf = new Uint8Array(await blob.slice(done, end).arrayBuffer());
+    session.feed(buf);
+    done = end;
+    post({ progress: true, id, done, total, rows: session.rowsSoFar() });
+  }
+  const intake = session.finish();
+  if (!intake.ok) { post({ id, ok: true, value: { name, intake } }); return; }
+  post({ progress: true, id, done, total, rows: intake.rows.read, stage: 'screening' });
+  const screen = session.screen();
+  const ms = performance.now() - t0;
+  post({ id, ok: true, value: { name, size: total, intake, screen, ms } });
+}
+
+const handlers = {
+  async open({ id, file, demo, options }) {
+    if (demo) {
+      const blob = await demoBlob(demo.b64);
+      return openLedger(id, blob, demo.name, options);
+    }
+    return openLedger(id, file, file.name, options);
+  },
+  async invoices({ id, supplier, first_two }) {
+    post({ id, ok: true, value: session.invoices(supplier, first_two || 0) });
+  },
+};
+
+self.onmessage = async (ev) => {
+  const m = ev.data;
+  if (m.cmd === 'init') {
+    ready = wasm_bindgen({ module_or_path: m.wasm }).then(() => post({ ready: true, version: wasm_bindgen.version() }));
+    return;
+  }
+  if (m.cmd === 'cancel') { cancelled = true; return; }
+  try {
+    await ready;
+    await handlers[m.cmd](m);
+  } catch (e) {
+    post({ id: m.id, ok: false, error: String(e && e.message ? e.message : e) });
+  }
+};
