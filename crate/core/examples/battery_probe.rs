@@ -3,8 +3,9 @@
 //!
 //!   battery_probe amounts [--tests LIST] [--limit AMOUNT]... [--last-two cents|whole_units]
 //!       stdin: one invoice per line, `amount[,supplier[,date_days[,invoice_number]]]`
-//!       (amount as decimal text, up to 4 decimals; supplier a number; date in days since
-//!       1970-01-01; a line starting with '#' or a non-digit header is skipped)
+//!       (amount as decimal text, up to 4 decimals and 14 whole digits; supplier a number; date
+//!       in days since 1970-01-01; blank lines and lines starting with '#' are skipped; any
+//!       other unreadable amount is an error)
 //!   battery_probe counts TEST        stdin: JSON array of bin counts; TEST one of first_digit,
 //!       second_digit, first_two, first_three, last_two, second_order
 //!   battery_probe binom K N P        prints P(X >= K) for X ~ binomial(N, P)
@@ -39,7 +40,13 @@ fn read_invoices(text: &str) -> Vec<Invoice> {
     let mut out = Vec::new();
     for (ln, line) in text.lines().enumerate() {
         let mut cells = line.split(',');
-        let Some(a) = cells.next().and_then(parse_amount) else { continue };
+        if line.trim().is_empty() || line.starts_with('#') {
+            continue;
+        }
+        let Some(a) = cells.next().and_then(parse_amount) else {
+            eprintln!("line {}: amount not readable (or beyond the exact range): {line}", ln + 1);
+            std::process::exit(1);
+        };
         let supplier = cells.next().and_then(|s| s.trim().parse().ok()).unwrap_or(0);
         let date = cells.next().and_then(|s| s.trim().parse().ok()).unwrap_or(NO_DATE);
         let invoice_hash = cells.next().map(|s| s.trim()).filter(|s| !s.is_empty()).map_or(0, |s| fnv1a(s.as_bytes()));
