@@ -1,1 +1,0 @@
-//! (lands with its issue)

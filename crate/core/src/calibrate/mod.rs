@@ -1,0 +1,734 @@
+//! Sample-size-aware calibration of the first-two digits test by Monte Carlo.
+//!
+//! Fixed MAD cut-offs ignore sample size: an honest supplier with few invoices has a large MAD
+//! by chance alone. Here every verdict is calibrated to the supplier's own invoice count n:
+//!
+//! - **Null distributions** of MAD, chi-square, KS and max |Z| over honest (Benford) samples of
+//!   size n, by exact multinomial sampling ([`sample`]) with a seeded generator ([`crate::rng`]).
+//!   They are simulated once per n on a log-spaced grid (16 points per decade) and cached; for n
+//!   between grid points the two neighbouring tables are used with the statistic rescaled by
+//!   sqrt(n) (MAD and KS shrink like 1/sqrt(n); chi-square and max |Z| are scale-free) and the
+//!   results interpolated linearly in log n. Below [`EXACT_BELOW`] invoices every n gets its own
+//!   table (discreteness matters there and simulation is cheap).
+//! - **p-values**: the Monte Carlo p-value (1 + #{T_sim >= t}) / (sims + 1) (Davison & Hinkley,
+//!   *Bootstrap methods and their application*, 1997, eq. 4.11 — from memory), which is a valid
+//!   p-value at any number of simulations.
+//! - **Verdict** uses the MAD, the statistic practitioners read, calibrated to n.
+//!   `deviates`: the (corrected, when a list is calibrated) p-value is at most 1 - confidence;
+//!   otherwise `too_few` when even a supplier whose amounts are 100 % fabricated, spread evenly
+//!   over its own amount range, would be detected with less than the chosen power at this n;
+//!   otherwise `consistent`. A deviation is a reason to look, not proof of anything.
+//! - **Invoices needed**: the smallest n at which a deviation model (default: a share s of
+//!   invoices fabricated with amounts uniform over the supplier's own range) is detected with the
+//!   chosen power, from a simulated power curve.
+//!
+//! Determinism: each table is simulated from a stream derived from (seed, purpose, n), and each
+//! power path from (seed, purpose, path index), so results never depend on the order in which
+//! suppliers are calibrated, and native and wasm builds give identical numbers.
+
+pub mod fdr;
+pub mod sample;
+
+pub use fdr::{adjust, Adjusted, Correction};
+pub use sample::Categorical;
+
+use crate::amount::Amount;
+use crate::benford;
+use crate::rng::DetRng;
+use serde::{Deserialize, Serialize};
+use std::collections::HashMap;
+
+/// Number of first-two-digit bins (10..=99).
+pub const BINS: usize = 90;
+/// Grid points per decade of n for the cached null tables.
+pub const GRID_PER_DECADE: u32 = 16;
+/// Every n below this gets its own null table instead of grid interpolation.
+pub const EXACT_BELOW: u64 = 100;
+/// Power-curve checkpoints per decade (a subset of the null grid).
+pub const POWER_PER_DECADE: u32 = 4;
+
+const TAG_NULL: u64 = 0x6e75_6c6c; // "null"
+const TAG_POWER: u64 = 0x706f_7772; // "powr"
+const TAG_FULL: u64 = 0x6675_6c6c; // "full"
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize, Default)]
+#[serde(rename_all = "snake_case")]
+pub enum DeviationModel {
+    /// A share `fabricated_share` of invoices with amounts uniform over [amount_min, amount_max].
+    #[default]
+    EvenSpread,
+    /// The supplier's observed first-two digit proportions taken as its true profile
+    /// (`fabricated_share` is not used). Observed proportions at small n overstate the
+    /// deviation (noise looks like deviation), so this model is optimistic for small suppliers.
+    ObservedProfile,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Verdict {
+    Deviates,
+    Consistent,
+    TooFew,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct CalibrationOptions {
+    /// Confidence level c; a supplier deviates when its p-value <= 1 - c. Default 0.95.
+    pub confidence: f64,
+    pub seed: u64,
+    /// Honest samples per null table. Default 10,000.
+    pub sims: u32,
+    /// Target power for `invoices_needed` and `too_few`. Default 0.8.
+    pub power: f64,
+    /// Share of fabricated invoices in the even-spread model. Default 0.3.
+    pub fabricated_share: f64,
+    pub deviation_model: DeviationModel,
+    pub correction: Correction,
+    /// Simulated paths per power curve. Default 400 (power SE <= 0.025).
+    pub power_sims: u32,
+    /// Power curves stop here; `invoices_needed` is None beyond. Default 100,000.
+    pub max_invoices: u64,
+}
+
+impl Default for CalibrationOptions {
+    fn default() -> Self {
+        CalibrationOptions {
+            confidence: 0.95,
+            seed: 1,
+            sims: 10_000,
+            power: 0.8,
+            fabricated_share: 0.3,
+            deviation_model: DeviationModel::EvenSpread,
+            correction: Correction::Fdr,
+            power_sims: 400,
+            max_invoices: 100_000,
+        }
+    }
+}
+
+/// Statistics of one count vector, from counts (same formulas as [`crate::stats`]).
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct CountStats {
+    pub mad: f64,
+    pub chi_square: f64,
+    pub ks: f64,
+    pub max_z: f64,
+}
+
+/// Per-n constants for the count-based statistics.
+#[derive(Clone, Debug)]
+pub struct Moments {
+    n: u64,
+    p: Vec<f64>,
+    e: Vec<f64>,
+    inv_e: Vec<f64>,
+    cum_e: Vec<f64>,
+    inv_sd: Vec<f64>,
+}
+
+impl Moments {
+    pub fn new(n: u64, p: &[f64]) -> Moments {
+        let nf = n as f64;
+        let e: Vec<f64> = p.iter().map(|&x| nf * x).collect();
+        let inv_e = e.iter().map(|&x| if x > 0.0 { 1.0 / x } else { 0.0 }).collect();
+        let mut acc = 0.0;
+        let cum_e = p
+            .iter()
+            .map(|&x| {
+                acc += x;
+                nf * acc
+            })
+            .collect();
+        let inv_sd = p
+            .iter()
+            .map(|&x| {
+                let v = nf * x * (1.0 - x);
+                if v > 0.0 { 1.0 / libm::sqrt(v) } else { 0.0 }
+            })
+            .collect();
+        Moments { n, p: p.to_vec(), e, inv_e, cum_e, inv_sd }
+    }
+
+    pub fn n(&self) -> u64 {
+        self.n
+    }
+
+    /// MAD = mean_i |c_i / n - p_i| (Nigrini 2012, as in [`crate::stats::mad`]).
+    #[inline]
+    pub fn mad(&self, c: &[u64]) -> f64 {
+        if self.n == 0 {
+            return 0.0;
+        }
+        let mut s = 0.0;
+        for i in 0..self.e.len() {
+            s += libm::fabs(c[i] as f64 - self.e[i]);
+        }
+        s / (self.n as f64 * self.e.len() as f64)
+    }
+
+    /// All four statistics.
+    pub fn stats(&self, c: &[u64]) -> CountStats {
+        if self.n == 0 {
+            return CountStats { mad: 0.0, chi_square: 0.0, ks: 0.0, max_z: 0.0 };
+        }
+        let nf = self.n as f64;
+        let (mut sad, mut chi, mut ks, mut mz) = (0.0f64, 0.0f64, 0.0f64, 0.0f64);
+        let mut cum = 0.0f64;
+        for i in 0..self.e.len() {
+            let ci = c[i] as f64;
+            let d = ci - self.e[i];
+            let ad = libm::fabs(d);
+            sad += ad;
+            chi += d * d * self.inv_e[i];
+            cum += ci;
+            ks = ks.max(libm::fabs(cum - self.cum_e[i]));
+            // continuity correction of 1/(2n) in proportions = 0.5 in counts, applied only
+            // when smaller than the difference (as crate::stats::z_stat)
+            let num = if 0.5 < ad { ad - 0.5 } else { ad };
+            let z = if self.p[i] > 0.0 && self.p[i] < 1.0 { num * self.inv_sd[i] } else { 0.0 };
+            mz = mz.max(z);
+        }
+        CountStats { mad: sad / (nf * self.e.len() as f64), chi_square: chi, ks: ks / nf, max_z: mz }
+    }
+}
+
+/// Sorted simulated statistics of honest samples at one n.
+#[derive(Clone, Debug)]
+pub struct NullTable {
+    pub n: u64,
+    /// Ascending: mad, chi_square, ks, max_z.
+    sorted: [Vec<f64>; 4],
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Statistic {
+    Mad = 0,
+    ChiSquare = 1,
+    Ks = 2,
+    MaxZ = 3,
+}
+
+impl Statistic {
+    /// Exponent of n in the statistic's scale: MAD and KS ~ n^-1/2, the others ~ 1.
+    fn scales_with_sqrt_n(self) -> bool {
+        matches!(self, Statistic::Mad | Statistic::Ks)
+    }
+}
+
+/// Relative tolerance for ties between a simulated and an observed statistic.
+const TIE: f64 = 1e-12;
+
+impl NullTable {
+    /// Simulate `sims` honest samples of size n from the stream (seed, "null", n).
+    pub fn simulate(benford: &Categorical, n: u64, sims: u32, seed: u64) -> NullTable {
+        let mom = Moments::new(n, benford.probs());
+        let mut rng = DetRng::stream(seed, &[TAG_NULL, n]);
+        let mut cols: [Vec<f64>; 4] = std::array::from_fn(|_| Vec::with_capacity(sims as usize));
+        let mut c = [0u64; BINS];
+        for _ in 0..sims {
+            c.iter_mut().for_each(|x| *x = 0);
+            benford.add(&mut rng, n, &mut c);
+            let s = mom.stats(&c);
+            cols[0].push(s.mad);
+            cols[1].push(s.chi_square);
+            cols[2].push(s.ks);
+            cols[3].push(s.max_z);
+        }
+        for col in cols.iter_mut() {
+            col.sort_by(|a, b| a.total_cmp(b));
+        }
+        NullTable { n, sorted: cols }
+    }
+
+    pub fn sims(&self) -> usize {
+        self.sorted[0].len()
+    }
+
+    pub fn sorted(&self, s: Statistic) -> &[f64] {
+        &self.sorted[s as usize]
+    }
+
+    /// Monte Carlo p-value (1 + #{T >= t}) / (S + 1).
+    pub fn p_value(&self, s: Statistic, t: f64) -> f64 {
+        let v = &self.sorted[s as usize];
+        let cut = t - TIE * t.abs();
+        let below = v.partition_point(|&x| x < cut);
+        (1 + v.len() - below) as f64 / (v.len() + 1) as f64
+    }
+
+    /// Critical value at level alpha: t rejects (p-value <= alpha) iff t > critical.
+    /// +inf when no t can reject with this many simulations.
+    pub fn critical(&self, s: Statistic, alpha: f64) -> f64 {
+        let v = &self.sorted[s as usize];
+        let k = libm::floor(alpha * (v.len() + 1) as f64) as i64 - 1;
+        if k < 0 || v.is_empty() {
+            return f64::INFINITY;
+        }
+        let k = (k as usize).min(v.len() - 1);
+        v[v.len() - 1 - k]
+    }
+}
+
+/// The grid point g's sample size: round(10^(g / 16)).
+pub fn grid_n(g: u32) -> u64 {
+    libm::round(libm::pow(10.0, g as f64 / GRID_PER_DECADE as f64)) as u64
+}
+
+/// Largest grid index with grid_n(g) <= n (n >= 1).
+fn grid_floor(n: u64) -> u32 {
+    let mut g = libm::floor(GRID_PER_DECADE as f64 * libm::log10(n as f64)) as i64;
+    g = g.max(0);
+    let mut g = g as u32;
+    while grid_n(g + 1) <= n {
+        g += 1;
+    }
+    while g > 0 && grid_n(g) > n {
+        g -= 1;
+    }
+    g
+}
+
+/// First-two digit probabilities of a continuous uniform on [a, b] (0 < a <= b): the overlap of
+/// [d·10^k, (d+1)·10^k) with [a, b] summed over decades k, divided by b - a. For a == b all mass
+/// is on the first-two digits of a.
+pub fn uniform_first_two(a: f64, b: f64) -> [f64; BINS] {
+    let mut out = [0.0f64; BINS];
+    assert!(a > 0.0 && b >= a && b.is_finite(), "need 0 < a <= b");
+    if b == a {
+        let e = libm::floor(libm::log10(a));
+        let mut d = libm::floor(a / libm::pow(10.0, e - 1.0)) as i64;
+        d = d.clamp(10, 99);
+        out[(d - 10) as usize] = 1.0;
+        return out;
+    }
+    let e_lo = libm::floor(libm::log10(a)) as i32 - 1;
+    let e_hi = libm::floor(libm::log10(b)) as i32 + 1;
+    for e in e_lo..=e_hi {
+        let unit = libm::pow(10.0, (e - 1) as f64);
+        for d in 10..=99i32 {
+            let lo = d as f64 * unit;
+            let hi = (d + 1) as f64 * unit;
+            let ov = hi.min(b) - lo.max(a);
+            if ov > 0.0 {
+                out[(d - 10) as usize] += ov;
+            }
+        }
+    }
+    let s: f64 = out.iter().sum();
+    out.iter_mut().for_each(|x| *x /= s);
+    out
+}
+
+/// (1 - s)·Benford + s·uniform on [a, b].
+pub fn even_spread_mixture(a: f64, b: f64, share: f64) -> [f64; BINS] {
+    let u = uniform_first_two(a, b);
+    let p = benford::first_two();
+    let s = share.clamp(0.0, 1.0);
+    std::array::from_fn(|i| (1.0 - s) * p[i] + s * u[i])
+}
+
+/// Null-only result for one count vector.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct NullCalibration {
+    pub invoices: u64,
+    pub stats: CountStats,
+    /// Calibrated p-value of the MAD ("how unusual among honest suppliers of this size").
+    pub mc_p_value: f64,
+    /// MAD above which this supplier deviates at the chosen confidence (single test).
+    pub mad_critical: f64,
+    pub chi2_mc_p_value: f64,
+    pub ks_mc_p_value: f64,
+    pub maxz_mc_p_value: f64,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct PowerPoint {
+    pub invoices: u64,
+    pub power: f64,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct SupplierCalibration {
+    pub invoices: u64,
+    pub mad: f64,
+    pub mc_p_value: f64,
+    pub mad_critical: f64,
+    pub chi2_mc_p_value: f64,
+    pub ks_mc_p_value: f64,
+    pub maxz_mc_p_value: f64,
+    /// The p-value after the correction across the list (None for a single-supplier call).
+    pub adjusted_p_value: Option<f64>,
+    pub verdict: Verdict,
+    /// Power at this n against 100 % evenly spread fabricated amounts (basis of `too_few`).
+    pub power_full_fabrication: f64,
+    /// Smallest n at which the deviation model is detected with the chosen power; None when
+    /// not reached by `max_invoices`.
+    pub invoices_needed: Option<u64>,
+    /// invoices_needed - invoices, 0 when already enough.
+    pub more_invoices_needed: Option<u64>,
+    pub power_curve: Vec<PowerPoint>,
+    pub confidence: f64,
+    pub seed: u64,
+    pub sims: u32,
+    pub deviation_model: DeviationModel,
+    pub fabricated_share: f64,
+}
+
+/// One supplier's input for [`Calibrator::ledger`].
+#[derive(Clone, Debug)]
+pub struct SupplierInput {
+    pub first_two_counts: Vec<u64>,
+    pub amount_min: Amount,
+    pub amount_max: Amount,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct LedgerCalibration {
+    pub correction: Correction,
+    /// The level the corrected p-values are held to: 1 - confidence.
+    pub q: f64,
+    pub alarms: usize,
+    /// Indices (into the input) of the suppliers with an alarm.
+    pub alarm_indices: Vec<usize>,
+    pub suppliers: Vec<SupplierCalibration>,
+}
+
+/// Calibrates suppliers; caches null tables per n.
+pub struct Calibrator {
+    opts: CalibrationOptions,
+    benford: Categorical,
+    tables: HashMap<u64, NullTable>,
+}
+
+impl Calibrator {
+    pub fn new(opts: CalibrationOptions) -> Calibrator {
+        assert!(opts.sims >= 1, "sims >= 1");
+        assert!(opts.confidence > 0.0 && opts.confidence < 1.0, "0 < confidence < 1");
+        Calibrator { opts, benford: Categorical::new(&benford::first_two()), tables: HashMap::new() }
+    }
+
+    pub fn options(&self) -> &CalibrationOptions {
+        &self.opts
+    }
+
+    fn alpha(&self) -> f64 {
+        1.0 - self.opts.confidence
+    }
+
+    /// The null table at exactly n (simulated on first use, then cached).
+    pub fn table(&mut self, n: u64) -> &NullTable {
+        let (b, sims, seed) = (&self.benford, self.opts.sims, self.opts.seed);
+        self.tables.entry(n).or_insert_with(|| NullTable::simulate(b, n, sims, seed))
+    }
+
+    /// Number of cached tables.
+    pub fn cached_tables(&self) -> usize {
+        self.tables.len()
+    }
+
+    /// The tables and weight used at n: exact (n, n, 0) or neighbours (n0, n1, w in (0, 1)).
+    fn bracket(n: u64) -> (u64, u64, f64) {
+        if n < EXACT_BELOW {
+            return (n, n, 0.0);
+        }
+        let g = grid_floor(n);
+        let n0 = grid_n(g);
+        if n0 == n {
+            return (n, n, 0.0);
+        }
+        let n1 = grid_n(g + 1);
+        let w = (libm::log(n as f64) - libm::log(n0 as f64)) / (libm::log(n1 as f64) - libm::log(n0 as f64));
+        (n0, n1, w)
+    }
+
+    /// Calibrated p-value of statistic value t at sample size n.
+    pub fn p_value(&mut self, s: Statistic, n: u64, t: f64) -> f64 {
+        let (n0, n1, w) = Self::bracket(n);
+        let scale = |m: u64| if s.scales_with_sqrt_n() { libm::sqrt(n as f64 / m as f64) } else { 1.0 };
+        let p0 = { let t0 = t * scale(n0); self.table(n0).p_value(s, t0) };
+        if n1 == n0 {
+            return p0;
+        }
+        let p1 = { let t1 = t * scale(n1); self.table(n1).p_value(s, t1) };
+        (1.0 - w) * p0 + w * p1
+    }
+
+    /// Calibrated critical value of statistic s at n for level alpha.
+    pub fn critical(&mut self, s: Statistic, n: u64, alpha: f64) -> f64 {
+        let (n0, n1, w) = Self::bracket(n);
+        let scale = |m: u64| if s.scales_with_sqrt_n() { libm::sqrt(m as f64 / n as f64) } else { 1.0 };
+        let c0 = self.table(n0).critical(s, alpha) * scale(n0);
+        if n1 == n0 {
+            return c0;
+        }
+        let c1 = self.table(n1).critical(s, alpha) * scale(n1);
+        (1.0 - w) * c0 + w * c1
+    }
+
+    /// Critical MAD at `confidence` for each n (the overview chart's limit curves).
+    pub fn limit_curve(&mut self, confidence: f64, ns: &[u64]) -> Vec<f64> {
+        ns.iter()
+            .map(|&n| if n == 0 { f64::INFINITY } else { self.critical(Statistic::Mad, n, 1.0 - confidence) })
+            .collect()
+    }
+
+    /// Statistics and calibrated p-values of one count vector (no power work).
+    pub fn null_only(&mut self, first_two_counts: &[u64]) -> NullCalibration {
+        assert_eq!(first_two_counts.len(), BINS, "90 first-two digit counts");
+        let n: u64 = first_two_counts.iter().sum();
+        let stats = Moments::new(n, self.benford.probs()).stats(first_two_counts);
+        if n == 0 {
+            return NullCalibration {
+                invoices: 0,
+                stats,
+                mc_p_value: 1.0,
+                mad_critical: f64::INFINITY,
+                chi2_mc_p_value: 1.0,
+                ks_mc_p_value: 1.0,
+                maxz_mc_p_value: 1.0,
+            };
+        }
+        let alpha = self.alpha();
+        NullCalibration {
+            invoices: n,
+            stats,
+            mc_p_value: self.p_value(Statistic::Mad, n, stats.mad),
+            mad_critical: self.critical(Statistic::Mad, n, alpha),
+            chi2_mc_p_value: self.p_value(Statistic::ChiSquare, n, stats.chi_square),
+            ks_mc_p_value: self.p_value(Statistic::Ks, n, stats.ks),
+            maxz_mc_p_value: self.p_value(Statistic::MaxZ, n, stats.max_z),
+        }
+    }
+
+    /// Power of the calibrated MAD test at exactly n against `model` (probabilities over the 90
+    /// bins), from `power_sims` samples of the stream (seed, tag, n).
+    pub fn power_at(&mut self, model: &[f64], n: u64, tag: u64) -> f64 {
+        if n == 0 {
+            return 0.0;
+        }
+        let crit = self.critical(Statistic::Mad, n, self.alpha());
+        let cat = Categorical::new(model);
+        let mom = Moments::new(n, self.benford.probs());
+        let mut rng = DetRng::stream(self.opts.seed, &[tag, n]);
+        let sims = self.opts.power_sims.max(1);
+        let mut hits = 0u32;
+        let mut c = [0u64; BINS];
+        for _ in 0..sims {
+            c.iter_mut().for_each(|x| *x = 0);
+            cat.add(&mut rng, n, &mut c);
+            if mom.mad(&c) > crit {
+                hits += 1;
+            }
+        }
+        hits as f64 / sims as f64
+    }
+
+    /// Power curve of the calibrated MAD test against `model` at the checkpoints
+    /// 10^(j/4) (j = 4, 5, ...), by `power_sims` nested paths: path i is one growing honest-or-
+    /// fabricated invoice stream from (seed, "power", i), its counts at each checkpoint an exact
+    /// multinomial draw of that size. Stops at the first checkpoint >= `at_least` whose power is
+    /// >= max(target, 0.95), or at `max_invoices`.
+    pub fn power_curve(&mut self, model: &[f64], target: f64, at_least: u64) -> Vec<PowerPoint> {
+        let cat = Categorical::new(model);
+        let sims = self.opts.power_sims.max(1) as usize;
+        let alpha = self.alpha();
+        let mut paths = vec![[0u64; BINS]; sims];
+        let mut rngs: Vec<DetRng> = (0..sims as u64).map(|i| DetRng::stream(self.opts.seed, &[TAG_POWER, i])).collect();
+        let mut out = Vec::new();
+        let mut prev = 0u64;
+        let step = GRID_PER_DECADE / POWER_PER_DECADE;
+        let mut g = GRID_PER_DECADE; // n = 10
+        loop {
+            let n = grid_n(g);
+            if n > self.opts.max_invoices {
+                break;
+            }
+            let crit = self.critical(Statistic::Mad, n, alpha);
+            let mom = Moments::new(n, self.benford.probs());
+            let mut hits = 0usize;
+            for (c, rng) in paths.iter_mut().zip(rngs.iter_mut()) {
+                cat.add(rng, n - prev, c);
+                if mom.mad(c) > crit {
+                    hits += 1;
+                }
+            }
+            let power = hits as f64 / sims as f64;
+            out.push(PowerPoint { invoices: n, power });
+            prev = n;
+            if power >= target.max(0.95) && n >= at_least {
+                break;
+            }
+            g += step;
+        }
+        out
+    }
+
+    /// First n reaching `target` on a power curve, interpolated linearly in log n between the
+    /// checkpoints around the crossing; None when the curve never reaches it.
+    pub fn invoices_needed(curve: &[PowerPoint], target: f64) -> Option<u64> {
+        let j = curve.iter().position(|p| p.power >= target)?;
+        if j == 0 {
+            return Some(curve[0].invoices);
+        }
+        let (a, b) = (curve[j - 1], curve[j]);
+        let (la, lb) = (libm::log(a.invoices as f64), libm::log(b.invoices as f64));
+        let f = ((target - a.power) / (b.power - a.power)).clamp(0.0, 1.0);
+        let n = libm::ceil(libm::exp(la + f * (lb - la))) as u64;
+        Some(n.clamp(a.invoices + 1, b.invoices))
+    }
+
+    /// The deviation model's bin probabilities for one supplier.
+    pub fn deviation_probs(&self, first_two_counts: &[u64], amount_min: Amount, amount_max: Amount) -> [f64; BINS] {
+        match self.opts.deviation_model {
+            DeviationModel::EvenSpread => even_spread(amount_min, amount_max, self.opts.fabricated_share),
+            DeviationModel::ObservedProfile => {
+                let n: u64 = first_two_counts.iter().sum();
+                if n == 0 {
+                    let p = benford::first_two();
+                    std::array::from_fn(|i| p[i])
+                } else {
+                    std::array::from_fn(|i| first_two_counts[i] as f64 / n as f64)
+                }
+            }
+        }
+    }
+
+    /// Full calibration of one supplier as a single test (no correction across a list).
+    /// `n` is the supplier's invoice count and must equal the sum of `first_two_counts`.
+    pub fn supplier(&mut self, n: u64, first_two_counts: &[u64], amount_min: Amount, amount_max: Amount) -> SupplierCalibration {
+        let base = self.null_only(first_two_counts);
+        assert_eq!(base.invoices, n, "n must equal the sum of the first-two counts");
+        let alarm = base.mc_p_value <= self.alpha();
+        self.finish(base, None, alarm, first_two_counts, amount_min, amount_max)
+    }
+
+    /// Calibrate a whole supplier list with the chosen correction across it (q = 1 - confidence).
+    pub fn ledger(&mut self, inputs: &[SupplierInput]) -> LedgerCalibration {
+        let bases: Vec<NullCalibration> = inputs.iter().map(|s| self.null_only(&s.first_two_counts)).collect();
+        let ps: Vec<f64> = bases.iter().map(|b| b.mc_p_value).collect();
+        let q = self.alpha();
+        let adj = adjust(&ps, self.opts.correction, q);
+        let mut suppliers = Vec::with_capacity(inputs.len());
+        for ((inp, base), a) in inputs.iter().zip(bases).zip(&adj) {
+            suppliers.push(self.finish(base, Some(a.adjusted_p), a.alarm, &inp.first_two_counts, inp.amount_min, inp.amount_max));
+        }
+        let alarm_indices: Vec<usize> = adj.iter().enumerate().filter(|(_, a)| a.alarm).map(|(i, _)| i).collect();
+        LedgerCalibration { correction: self.opts.correction, q, alarms: alarm_indices.len(), alarm_indices, suppliers }
+    }
+
+    fn finish(
+        &mut self,
+        base: NullCalibration,
+        adjusted: Option<f64>,
+        alarm: bool,
+        counts: &[u64],
+        amount_min: Amount,
+        amount_max: Amount,
+    ) -> SupplierCalibration {
+        let n = base.invoices;
+        let full = even_spread(amount_min, amount_max, 1.0);
+        let power_full = self.power_at(&full, n, TAG_FULL);
+        let model = self.deviation_probs(counts, amount_min, amount_max);
+        let curve = self.power_curve(&model, self.opts.power, n);
+        let needed = Self::invoices_needed(&curve, self.opts.power);
+        let verdict = if alarm {
+            Verdict::Deviates
+        } else if power_full < self.opts.power {
+            Verdict::TooFew
+        } else {
+            Verdict::Consistent
+        };
+        SupplierCalibration {
+            invoices: n,
+            mad: base.stats.mad,
+            mc_p_value: base.mc_p_value,
+            mad_critical: base.mad_critical,
+            chi2_mc_p_value: base.chi2_mc_p_value,
+            ks_mc_p_value: base.ks_mc_p_value,
+            maxz_mc_p_value: base.maxz_mc_p_value,
+            adjusted_p_value: adjusted,
+            verdict,
+            power_full_fabrication: power_full,
+            invoices_needed: needed,
+            more_invoices_needed: needed.map(|m| m.saturating_sub(n)),
+            power_curve: curve,
+            confidence: self.opts.confidence,
+            seed: self.opts.seed,
+            sims: self.opts.sims,
+            deviation_model: self.opts.deviation_model,
+            fabricated_share: self.opts.fabricated_share,
+        }
+    }
+}
+
+/// Even-spread mixture over the supplier's amount range (absolute values, in currency units).
+/// A range that is empty or not positive falls back to a point mass at the larger amount's
+/// digits, or to Benford when both are zero.
+fn even_spread(amount_min: Amount, amount_max: Amount, share: f64) -> [f64; BINS] {
+    let (a, b) = {
+        let x = amount_min.abs().to_f64();
+        let y = amount_max.abs().to_f64();
+        (x.min(y), x.max(y))
+    };
+    if b <= 0.0 {
+        let p = benford::first_two();
+        return std::array::from_fn(|i| p[i]);
+    }
+    let a = if a <= 0.0 { b } else { a };
+    even_spread_mixture(a, b, share)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn uniform_hand_worked() {
+        // Hand-worked from the definition: uniform on [10, 100) gives every first-two block
+        // width 1 of 90 -> 1/90; on [50, 150]: 50..99 width 1 each (1/100), 10..14 width 10
+        // each (1/10).
+        let u = uniform_first_two(10.0, 100.0);
+        assert!(u.iter().all(|&x| (x - 1.0 / 90.0).abs() < 1e-12));
+        let u = uniform_first_two(50.0, 150.0);
+        for d in 10..=99usize {
+            let e = if d >= 50 { 0.01 } else if d < 15 { 0.1 } else { 0.0 };
+            assert!((u[d - 10] - e).abs() < 1e-12, "d={d} {}", u[d - 10]);
+        }
+        let u = uniform_first_two(42.0, 42.0);
+        assert_eq!(u[32], 1.0);
+    }
+
+    #[test]
+    fn grid_brackets() {
+        assert_eq!(grid_n(16), 10);
+        assert_eq!(grid_n(48), 1000);
+        for n in [100u64, 101, 999, 1000, 1001, 54_321, 99_999] {
+            let g = grid_floor(n);
+            assert!(grid_n(g) <= n && n < grid_n(g + 1), "{n}");
+        }
+    }
+
+    #[test]
+    fn count_stats_match_stats_module() {
+        let p = benford::first_two();
+        let mut rng = DetRng::seed_from_u64(5);
+        let cat = Categorical::new(&p);
+        let mut c = vec![0u64; 90];
+        cat.add(&mut rng, 777, &mut c);
+        let s = Moments::new(777, &p).stats(&c);
+        assert!((s.mad - crate::stats::mad(&c, &p)).abs() < 1e-15);
+        assert!((s.chi_square - crate::stats::chi_square(&c, &p)).abs() < 1e-9);
+        assert!((s.ks - crate::stats::ks(&c, &p)).abs() < 1e-12);
+        let mz = (0..90).map(|i| crate::stats::z_stat(c[i], 777, p[i])).fold(0.0, f64::max);
+        assert!((s.max_z - mz).abs() < 1e-9);
+    }
+
+    #[test]
+    fn critical_and_p_value_agree() {
+        let b = Categorical::new(&benford::first_two());
+        let t = NullTable::simulate(&b, 200, 999, 3);
+        let c = t.critical(Statistic::Mad, 0.05);
+        assert!(t.p_value(Statistic::Mad, c) > 0.05);
+        assert!(t.p_value(Statistic::Mad, c * (1.0 + 1e-9)) <= 0.05);
+    }
+}
