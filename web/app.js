@@ -71,6 +71,7 @@
     }
     document.title = 'digitdrift — ' + $('view-' + view).dataset.title;
     if (view === 'suppliers') drawSelected();
+    if (view === 'supplier') renderSupplierFile();
   }
   window.addEventListener('hashchange', () => show(location.hash.slice(1)));
   document.addEventListener('keydown', (e) => {
@@ -184,6 +185,7 @@
   }
   function select(id) {
     state.selected = id;
+    $('supplier-body').dataset.id = '';
     for (const tr of document.querySelectorAll('#supplier-table tbody tr')) tr.classList.toggle('sel', Number(tr.dataset.id) === id);
     $('drill').replaceChildren();
     drawSelected();
@@ -243,16 +245,144 @@
   });
   async function drill(supplierId, bin) {
     const s = supplierById(supplierId);
-    const rows = await call('invoices', { supplier: supplierId, first_two: bin });
-    const box = $('drill');
-    box.replaceChildren(...[
-      el('h3', { text: `${s.name}: ${fmtInt(rows.length)} invoice${rows.length === 1 ? '' : 's'} whose amounts start with ${bin}` }),
-      el('div', { class: 'table-wrap short' }, el('table', { class: 'grid compact', id: 'drill-table' },
-        el('thead', null, el('tr', null, el('th', { class: 'num', text: 'Line' }), el('th', { text: 'Date' }), el('th', { class: 'num', text: 'Amount' }))),
-        el('tbody', null, rows.slice(0, 500).map((r) => el('tr', null, el('td', { class: 'num', text: r.line }), el('td', { text: r.date }), el('td', { class: 'num', text: fmtMoney(r.amount) })))))),
-      rows.length > 500 ? el('p', { class: 'small', text: `First 500 of ${fmtInt(rows.length)} shown.` }) : null].filter(Boolean));
+    const rows = await call('members', { supplier: supplierId, test: 'first_two', bin });
+    showInvoices($('drill'), `${s.name}: ${fmtInt(rows.length)} invoice${rows.length === 1 ? '' : 's'} whose amounts start with ${bin}`, rows, 'drill-table');
   }
+  // A sortable, filterable list of invoices (the ones behind a bar, a point or a table row).
+  function showInvoices(box, title, rows, tableId) {
+    let sortKey = 'line', dir = 1, filter = '';
+    const wrap = el('div', { class: 'table-wrap short' });
+    const input = el('input', { type: 'search', class: 'filter', placeholder: 'Filter…', 'aria-label': 'Filter these invoices' });
+    const cols = [['line', 'Line', true], ['date', 'Date', false], ['amount', 'Amount', true]];
+    function render() {
+      const f = filter.toLowerCase();
+      const shown = rows.filter((r) => !f || r.date.includes(f) || String(r.amount).includes(f) || String(r.line).includes(f))
+        .sort((a, b) => { const x = sortKey === 'amount' ? Number(a.amount) : a[sortKey], y = sortKey === 'amount' ? Number(b.amount) : b[sortKey]; return (x < y ? -1 : x > y ? 1 : 0) * dir; });
+      wrap.replaceChildren(el('table', { class: 'grid compact', id: tableId },
+        el('thead', null, el('tr', null, cols.map(([k, label, num]) => el('th', { class: num ? 'num' : null },
+          el('button', { class: 'sort', type: 'button', onclick: () => { dir = sortKey === k ? -dir : 1; sortKey = k; render(); } }, label))))),
+        el('tbody', null, shown.slice(0, 1000).map((r) => el('tr', null, el('td', { class: 'num', text: r.line }), el('td', { text: r.date }), el('td', { class: 'num', text: fmtMoney(r.amount) }))))));
+    }
+    input.addEventListener('input', () => { filter = input.value.trim(); render(); });
+    render();
+    box.replaceChildren(...[el('h3', { text: title }), input, wrap,
+      rows.length > 1000 ? el('p', { class: 'small', text: `The first 1,000 of ${fmtInt(rows.length)} are listed.` }) : null].filter(Boolean));
+  }
+  state.showInvoices = showInvoices;
   window.addEventListener('resize', () => drawSelected());
+
+  // ---------- one supplier's file: every test, amount checks, the invoices behind them ----------
+  const TESTS = [
+    ['first_digit', 'First digit (1–9)', 'first digit'],
+    ['second_digit', 'Second digit (0–9)', 'second digit'],
+    ['first_two', 'First-two digits (10–99)', 'first-two digits'],
+    ['first_three', 'First-three digits (100–999)', 'first-three digits'],
+    ['last_two', 'Last-two digits (00–99, cents)', 'last-two digits'],
+    ['second_order', 'Second-order test (differences of sorted amounts)', 'first-two digits of differences'],
+  ];
+  async function renderSupplierFile() {
+    const body = $('supplier-body');
+    if (!state.report || state.selected === null) return;
+    const id = state.selected;
+    if (body.dataset.id === String(id)) return;
+    const d = await call('detail', { supplier: id });
+    body.dataset.id = String(id);
+    $('supplier-title').textContent = 'Supplier file: ' + d.name;
+    const facts = el('p', { class: 'facts' }, `${fmtInt(d.invoices)} invoices · ${fmtMoney(d.amount_total)} paid · amounts ${fmtMoney(d.amount_min)} to ${fmtMoney(d.amount_max)}` + (d.first_date ? ` · ${d.first_date} to ${d.last_date}` : ''));
+    const drillBox = el('div', { id: 'file-drill', class: 'drill' });
+    const charts = el('div', { class: 'chart-grid' });
+    body.replaceChildren(el('p', { class: 'caution', text: CAUTION }), facts, testSummary(d), charts, drillBox, amountChecks(d, drillBox));
+    for (const [key, title, xl] of TESTS) {
+      const t = d[key];
+      if (!t) continue;
+      const c = el('canvas', { class: 'chart', id: 'chart-' + key, role: 'img', 'aria-label': title + ' chart; the table below gives the same numbers' });
+      const fig = el('figure', null, c, el('figcaption', { class: 'small' }, `${title}: MAD ${t.mad.toFixed(5)}` + (t.conformity ? ` (${t.conformity.label})` : '') + ` · χ² ${t.chi_square.toFixed(1)}, ${t.df} df, p ${fmtP(t.p_value)} · KS ${t.ks.toFixed(4)} (5 % limit ${t.ks_critical_5pct.toFixed(4)})`),
+        digitTable(t));
+      charts.append(fig);
+      const draw = (sel) => {
+        const dpr = sizeCanvas(c);
+        const bands = t.expected.map((p) => band(p, t.n));
+        state.geometry[c.id] = wasm_bindgen.drawDigitChart(c, { title: `${title} — n = ${fmtInt(t.n)}`, first_bin: t.first_bin, observed: t.observed, expected: t.expected,
+          band_lo: bands.map((b) => b[0]), band_hi: bands.map((b) => b[1]), flags: t.flag, scale: dpr, x_label: xl, y_label: 'share', selected: sel });
+        c.dataset.drawn = 'yes';
+      };
+      draw();
+      c.addEventListener('click', async (e) => {
+        const g = state.geometry[c.id];
+        const r = c.getBoundingClientRect();
+        const x = (e.clientX - r.left) * (c.width / r.width);
+        if (x < g.left || x > g.right) return;
+        const bin = Math.round(g.x_min + (x - g.left) / (g.right - g.left) * (g.x_max - g.x_min));
+        draw(bin - t.first_bin);
+        const rows = await call('members', { supplier: id, test: key, bin });
+        showInvoices(drillBox, `${d.name}: ${fmtInt(rows.length)} invoices behind ${title.toLowerCase()} = ${bin}`, rows, 'file-drill-table');
+        drillBox.scrollIntoView({ block: 'nearest' });
+      });
+    }
+    if (d.summation) {
+      const sm = d.summation;
+      const c = el('canvas', { class: 'chart', id: 'chart-summation', role: 'img', 'aria-label': 'Summation test chart' });
+      charts.append(el('figure', null, c, el('figcaption', { class: 'small', text: `Summation test: share of the amount total per first-two digits against the equal share 1/90 · MAD ${sm.mad.toFixed(5)} · ${sm.flagged.length} bins at least ${sm.flag_ratio}× the equal share` })));
+      const dpr = sizeCanvas(c);
+      wasm_bindgen.drawDigitChart(c, { title: 'Summation test', first_bin: 10, observed: sm.shares, expected: sm.shares.map(() => sm.expected_share),
+        flags: sm.shares.map((x) => x >= sm.flag_ratio * sm.expected_share ? 2 : 0), scale: dpr, x_label: 'first-two digits', y_label: 'share of amount' });
+      c.dataset.drawn = 'yes';
+    }
+  }
+  function testSummary(d) {
+    const rows = TESTS.filter(([k]) => d[k]).map(([k, title]) => {
+      const t = d[k];
+      return el('tr', null, el('td', { text: title }), el('td', { class: 'num', text: fmtInt(t.n) }), el('td', { class: 'num', text: t.mad.toFixed(5) }),
+        el('td', { text: t.conformity ? t.conformity.label : '—' }), el('td', { class: 'num', text: t.mc_p_value !== undefined ? fmtP(t.mc_p_value) : '—' }),
+        el('td', { class: 'num', text: t.chi_square.toFixed(1) + ' / ' + t.df }), el('td', { class: 'num', text: fmtP(t.p_value) }),
+        el('td', { class: 'num', text: t.ks.toFixed(4) + (t.ks > t.ks_critical_5pct ? ' ▲' : '') }), el('td', { class: 'num', text: String(t.flag.filter((f) => f === 2).length) }));
+    });
+    const dist = d.distortion ? el('p', { class: 'small', text: `Distortion factor ${d.distortion.distortion_factor_pct.toFixed(1)} % (Z ${d.distortion.z.toFixed(2)}, p ${fmtP(d.distortion.p_value)}): positive means amounts pushed up within their decade, negative pushed down.` }) : null;
+    const note = d.first_two && d.first_two.conformity ? el('p', { class: 'small', text: d.first_two.conformity.note }) : null;
+    return el('div', null, el('table', { class: 'grid compact', id: 'test-summary' },
+      el('caption', { text: 'Every digit test for this supplier. Fixed MAD bands are printed as published; they ignore sample size.' }),
+      el('thead', null, el('tr', null, ['Test', 'n', 'MAD', 'Published band', 'Simulated p', 'χ² / df', 'p (χ²)', 'KS', 'Bins |Z|>2.576'].map((h) => el('th', { text: h })))),
+      el('tbody', null, rows)), dist, note);
+  }
+  function digitTable(t) {
+    const det = el('details', null, el('summary', { text: 'Numbers behind this chart' }));
+    det.append(el('div', { class: 'table-wrap short' }, el('table', { class: 'grid compact' },
+      el('thead', null, el('tr', null, ['Digits', 'Count', 'Observed', 'Expected', 'Z'].map((h) => el('th', { text: h })))),
+      el('tbody', null, t.counts.map((c, i) => el('tr', { class: t.flag[i] ? 'flag' + t.flag[i] : null }, el('td', { text: String(t.first_bin + i).padStart(t.test === 'last_two' ? 2 : 1, '0') }),
+        el('td', { class: 'num', text: fmtInt(c) }), el('td', { class: 'num', text: (100 * t.observed[i]).toFixed(2) + ' %' }),
+        el('td', { class: 'num', text: (100 * t.expected[i]).toFixed(2) + ' %' }), el('td', { class: 'num', text: t.z[i].toFixed(2) })))))));
+    return det;
+  }
+  function amountChecks(d, drillBox) {
+    const a = d.amount_checks;
+    if (!a) return null;
+    const list = (title, items) => el('div', { class: 'check' }, el('h3', { text: title }), items);
+    const click = (label, idx) => async () => {
+      const rows = await call('invoicesAt', { supplier: d.id, indices: idx });
+      showInvoices(drillBox, `${d.name}: ${label}`, rows, 'file-drill-table');
+      drillBox.scrollIntoView({ block: 'nearest' });
+    };
+    const freq = el('table', { class: 'grid compact', id: 'frequent-amounts' },
+      el('thead', null, el('tr', null, ['Amount', 'Invoices', 'Share'].map((h) => el('th', { text: h })))),
+      el('tbody', null, a.most_frequent.map((f) => el('tr', { tabindex: 0, onclick: click(`${fmtInt(f.count)} invoices of exactly ${fmtMoney(f.amount)}`, f.invoices) },
+        el('td', { class: 'num', text: fmtMoney(f.amount) }), el('td', { class: 'num', text: fmtInt(f.count) }), el('td', { class: 'num', text: (100 * f.share).toFixed(2) + ' %' })))));
+    const round = el('table', { class: 'grid compact', id: 'round-amounts' },
+      el('thead', null, el('tr', null, ['Kind', 'Invoices', 'Rate', 'Reference', 'p'].map((h) => el('th', { text: h })))),
+      el('tbody', null, a.round.levels.map((r) => el('tr', { tabindex: 0, onclick: click(`${r.level} amounts`, r.invoices) },
+        el('td', { text: r.level }), el('td', { class: 'num', text: fmtInt(r.count) }), el('td', { class: 'num', text: (100 * r.conditional_rate).toFixed(2) + ' %' }),
+        el('td', { class: 'num', text: (100 * r.reference_rate).toFixed(2) + ' %' }), el('td', { class: 'num', text: fmtP(r.p_value) })))));
+    const limits = a.limits.length ? el('table', { class: 'grid compact', id: 'limit-clusters' },
+      el('thead', null, el('tr', null, ['Limit', 'Just below', 'Expected', 'Ratio', 'p'].map((h) => el('th', { text: h })))),
+      el('tbody', null, a.limits.map((l) => el('tr', { tabindex: 0, onclick: click(`amounts just below ${fmtMoney(l.limit)}`, l.invoices) },
+        el('td', { class: 'num', text: fmtMoney(l.limit) }), el('td', { class: 'num', text: fmtInt(l.count) }), el('td', { class: 'num', text: l.expected.toFixed(1) }),
+        el('td', { class: 'num', text: l.ratio.toFixed(2) }), el('td', { class: 'num', text: fmtP(l.p_value) }))))) : el('p', { class: 'small', text: 'No approval limits entered (Ledger view, settings).' });
+    return el('div', { class: 'checks' },
+      list('Most frequent exact amounts', freq),
+      list('Round amounts', round),
+      list('Possible duplicates', el('p', { text: `${fmtInt(a.duplicates ? a.duplicates.same_amount_date_groups : 0)} groups with the same amount and date; ${fmtInt(a.duplicates ? a.duplicates.same_number_groups : 0)} invoice numbers used twice or more.` })),
+      list('Just below approval limits', limits),
+      el('p', { class: 'small', text: a.note }));
+  }
 
   $('caution-foot').textContent = CAUTION;
   show(location.hash.slice(1) || 'ledger');

@@ -19,7 +19,7 @@ async function demoBlob(b64) {
   return new Blob(parts, { type: 'text/csv' });
 }
 
-async function openLedger(id, blob, name, options) {
+async function openLedger(id, blob, name, options, settings) {
   cancelled = false;
   session = new wasm_bindgen.Session(options || {});
   const total = blob.size;
@@ -36,22 +36,23 @@ async function openLedger(id, blob, name, options) {
   const intake = session.finish();
   if (!intake.ok) { post({ id, ok: true, value: { name, intake } }); return; }
   post({ progress: true, id, done, total, rows: intake.rows.read, stage: 'screening' });
-  const screen = session.screen();
+  const screen = session.screen(settings || {});
   const ms = performance.now() - t0;
   post({ id, ok: true, value: { name, size: total, intake, screen, ms } });
 }
 
 const handlers = {
-  async open({ id, file, demo, options }) {
+  async open({ id, file, demo, options, settings }) {
     if (demo) {
       const blob = await demoBlob(demo.b64);
-      return openLedger(id, blob, demo.name, options);
+      return openLedger(id, blob, demo.name, options, settings);
     }
-    return openLedger(id, file, file.name, options);
+    return openLedger(id, file, file.name, options, settings);
   },
-  async invoices({ id, supplier, first_two }) {
-    post({ id, ok: true, value: session.invoices(supplier, first_two || 0) });
-  },
+  async rescreen({ id, settings }) { post({ id, ok: true, value: session.screen(settings || {}) }); },
+  async detail({ id, supplier }) { post({ id, ok: true, value: session.supplierDetail(supplier) }); },
+  async members({ id, supplier, test, bin }) { post({ id, ok: true, value: session.binMembers(supplier, test, bin) }); },
+  async invoicesAt({ id, supplier, indices }) { post({ id, ok: true, value: session.invoicesAt(supplier, new Uint32Array(indices)) }); },
 };
 
 self.onmessage = async (ev) => {

@@ -13,7 +13,9 @@ const USAGE: &str = "digitdrift — Benford digit screening of supplier invoices
 usage:
   digitdrift screen FILE [--supplier COL] [--amount COL] [--date COL] [--invoice COL]
                          [--decimal comma|point] [--date-order dmy|mdy|ymd] [--min-amount X]
-                         [--format json|text]
+                         [--tests all|first,second,first_two,first_three,last_two,summation,
+                                  second_order,distortion,amounts]
+                         [--limits 5000;10000] [--format json|text]
 
 COL is a header name or a 1-based column number. A digit deviation is a reason to look,
 not proof of wrongdoing.";

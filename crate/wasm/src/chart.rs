@@ -122,7 +122,7 @@ pub fn draw_digit_chart(canvas: HtmlCanvasElement, spec: JsValue) -> Result<JsVa
     chart
         .configure_mesh()
         .disable_x_mesh()
-        .light_line_style(GRID.mix(0.5))
+        .max_light_lines(0)
         .bold_line_style(GRID)
         .axis_style(INK)
         .x_labels(k.min(12).max(2))
@@ -262,7 +262,7 @@ pub fn draw_scatter(canvas: HtmlCanvasElement, spec: JsValue) -> Result<JsValue,
     let x_dates = s.x_dates;
     chart
         .configure_mesh()
-        .light_line_style(GRID.mix(0.5))
+        .max_light_lines(0)
         .bold_line_style(GRID)
         .axis_style(INK)
         .x_label_formatter(&|v| {

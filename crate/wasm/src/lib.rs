@@ -5,7 +5,7 @@
 mod chart;
 
 use digitdrift_core::intake::{DateOrder, DecimalConvention, Intake, IntakeOptions, IntakeResult};
-use digitdrift_core::{report, Amount};
+use digitdrift_core::{report, Amount, Invoice};
 use serde::Deserialize;
 use wasm_bindgen::prelude::*;
 
@@ -69,13 +69,16 @@ fn intake_options(v: JsValue) -> Result<IntakeOptions, JsValue> {
 pub struct Session {
     intake: Option<Intake>,
     result: Option<IntakeResult>,
+    min_amount: Amount,
+    report: Option<report::ScreenReport>,
 }
 
 #[wasm_bindgen]
 impl Session {
     #[wasm_bindgen(constructor)]
     pub fn new(options: JsValue) -> Result<Session, JsValue> {
-        Ok(Session { intake: Some(Intake::new(intake_options(options)?)), result: None })
+        let o = intake_options(options)?;
+        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None })
     }
 
     /// Feed the next chunk of the file, in order.
@@ -101,29 +104,117 @@ impl Session {
         }
     }
 
-    /// The batch screen of the finished ledger.
-    pub fn screen(&self) -> Result<JsValue, JsValue> {
+    /// The batch screen of the finished ledger. Returns a summary: per-bin arrays of the
+    /// first-two test are kept, the larger tests are left to `supplierDetail`.
+    pub fn screen(&mut self, settings: JsValue) -> Result<JsValue, JsValue> {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
-        to_js(&report::screen(&r.ledger, &r.info))
+        let opts = screen_options(settings)?;
+        let rep = report::screen(&r.ledger, &r.info, self.min_amount, &opts);
+        let mut v = serde_json::to_value(&rep).map_err(err)?;
+        for s in v["suppliers"].as_array_mut().into_iter().flatten() {
+            slim(s);
+        }
+        slim(&mut v["whole_file"]);
+        slim(&mut v["credit_notes"]);
+        self.report = Some(rep);
+        to_js(&v)
     }
 
-    /// Invoices of one supplier (id from the screen), optionally only those whose first-two
-    /// digits equal `first_two` (0 = all). Returns [{line, date, amount}].
-    pub fn invoices(&self, supplier: u32, first_two: u32) -> Result<JsValue, JsValue> {
+    /// Every test of one supplier (id), or of the whole file (-1) or the credit notes (-2).
+    #[wasm_bindgen(js_name = supplierDetail)]
+    pub fn supplier_detail(&self, id: i32) -> Result<JsValue, JsValue> {
+        let rep = self.report.as_ref().ok_or_else(|| err("no screen yet"))?;
+        let s = match id {
+            -1 => Some(&rep.whole_file),
+            -2 => Some(&rep.credit_notes),
+            _ => rep.suppliers.iter().find(|s| s.id as i32 == id),
+        };
+        to_js(&s.ok_or_else(|| err("no such supplier"))?)
+    }
+
+    /// The invoices behind one bar of a digit chart: `test` is a battery test name
+    /// (first_digit, second_digit, first_two, first_three, last_two, summation, second_order),
+    /// `bin` the digit value. Supplier id, or -1 whole file, -2 credit notes.
+    #[wasm_bindgen(js_name = binMembers)]
+    pub fn bin_members(&self, supplier: i32, test: &str, bin: u32) -> Result<JsValue, JsValue> {
+        let invs = self.population(supplier)?;
+        let idx = digitdrift_core::battery::bin_members(test, bin, &invs);
+        to_js(&self.rows(&invs, &idx))
+    }
+
+    /// Invoices by index within one population (as listed by the amount checks).
+    #[wasm_bindgen(js_name = invoicesAt)]
+    pub fn invoices_at(&self, supplier: i32, indices: Vec<u32>) -> Result<JsValue, JsValue> {
+        let invs = self.population(supplier)?;
+        let idx: Vec<usize> = indices.into_iter().map(|i| i as usize).filter(|&i| i < invs.len()).collect();
+        to_js(&self.rows(&invs, &idx))
+    }
+}
+
+impl Session {
+    fn population(&self, supplier: i32) -> Result<Vec<&Invoice>, JsValue> {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
-        let rows: Vec<serde_json::Value> = r
-            .ledger
-            .invoices_of(supplier)
-            .filter(|i| first_two == 0 || i.amount.leading_digits(2) == Some(first_two))
-            .map(|i| {
+        Ok(match supplier {
+            -1 => r.ledger.invoices.iter().collect(),
+            -2 => r.ledger.credit_notes.iter().collect(),
+            id if id >= 0 => r.ledger.invoices_of(id as u32).collect(),
+            _ => return Err(err("no such population")),
+        })
+    }
+    fn rows(&self, invs: &[&Invoice], idx: &[usize]) -> Vec<serde_json::Value> {
+        let sup = &self.result.as_ref().expect("ledger").ledger.suppliers;
+        idx.iter()
+            .map(|&i| {
+                let inv = invs[i];
                 serde_json::json!({
-                    "line": i.line,
-                    "date": digitdrift_core::intake::format_date(i.date),
-                    "amount": i.amount.to_string(),
+                    "idx": i,
+                    "line": inv.line,
+                    "supplier": sup[inv.supplier as usize].name,
+                    "date": digitdrift_core::intake::format_date(inv.date),
+                    "amount": inv.amount.to_string(),
                 })
             })
-            .collect();
-        to_js(&rows)
+            .collect()
+    }
+}
+
+#[derive(Deserialize, Default)]
+#[serde(default)]
+struct JsScreenSettings {
+    tests: Option<String>,
+    limits: Vec<String>,
+}
+
+fn screen_options(v: JsValue) -> Result<report::ScreenOptions, JsValue> {
+    let s: JsScreenSettings = if v.is_undefined() || v.is_null() {
+        JsScreenSettings::default()
+    } else {
+        serde_wasm_bindgen::from_value(v).map_err(err)?
+    };
+    let mut o = report::ScreenOptions::default();
+    if let Some(t) = s.tests.filter(|t| !t.trim().is_empty()) {
+        o.battery.tests = t.parse().map_err(|e: digitdrift_core::battery::TestSetError| err(e))?;
+    }
+    for l in s.limits.iter().filter(|l| !l.trim().is_empty()) {
+        let a = digitdrift_core::intake::parse_amount_simple(l).ok_or_else(|| err(format!("approval limit: cannot read '{l}'")))?;
+        o.battery.approval_limits.push(Amount(a.0.abs()));
+    }
+    Ok(o)
+}
+
+/// Drop the bulky per-bin arrays of the larger tests from a supplier summary.
+fn slim(s: &mut serde_json::Value) {
+    if let Some(obj) = s.as_object_mut() {
+        for k in ["first_three", "last_two", "second_order", "summation"] {
+            if let Some(t) = obj.get_mut(k).and_then(|t| t.as_object_mut()) {
+                for f in ["counts", "expected", "observed", "z", "flag", "bins", "shares", "sums"] {
+                    t.remove(f);
+                }
+            }
+        }
+        if let Some(a) = obj.get_mut("amount_checks").and_then(|t| t.as_object_mut()) {
+            a.remove("duplicates");
+        }
     }
 }
 
