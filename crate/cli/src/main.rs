@@ -15,7 +15,9 @@ usage:
                          [--decimal comma|point] [--date-order dmy|mdy|ymd] [--min-amount X]
                          [--tests all|first,second,first_two,first_three,last_two,summation,
                                   second_order,distortion,amounts]
-                         [--limits 5000;10000] [--format json|text]
+                         [--limits 5000;10000] [--confidence 0.95] [--seed N] [--sims 10000]
+                         [--power 0.8] [--fabricated-share 0.3] [--deviation-model even|observed]
+                         [--correction fdr|bonferroni|none] [--no-calibration] [--format json|text]
 
 COL is a header name or a 1-based column number. A digit deviation is a reason to look,
 not proof of wrongdoing.";

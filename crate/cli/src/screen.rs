@@ -19,11 +19,44 @@ pub fn screen_options(a: &Args) -> Result<ScreenOptions, String> {
             o.battery.approval_limits.push(Amount(v.0.abs()));
         }
     }
+    let mut c = digitdrift_core::calibrate::CalibrationOptions::default();
+    if let Some(v) = a.parse_num::<f64>("confidence")? {
+        // Accept 0.95 or 95.
+        let v = if v > 1.0 { v / 100.0 } else { v };
+        if !(v > 0.0 && v < 1.0) {
+            return Err("--confidence must be between 0 and 1 (e.g. 0.95) or a percentage".into());
+        }
+        c.confidence = v;
+    }
+    if let Some(v) = a.parse_num::<u64>("seed")? {
+        c.seed = v;
+    }
+    if let Some(v) = a.parse_num::<f64>("power")? {
+        c.power = if v > 1.0 { v / 100.0 } else { v };
+    }
+    if let Some(v) = a.parse_num::<f64>("fabricated-share")? {
+        c.fabricated_share = if v > 1.0 { v / 100.0 } else { v };
+    }
+    if let Some(v) = a.parse_num::<u32>("sims")? {
+        c.sims = v.max(100);
+    }
+    c.correction = match a.get("correction") {
+        None | Some("fdr") => digitdrift_core::calibrate::Correction::Fdr,
+        Some("bonferroni") => digitdrift_core::calibrate::Correction::Bonferroni,
+        Some("none") => digitdrift_core::calibrate::Correction::None,
+        Some(v) => return Err(format!("--correction takes fdr, bonferroni or none, not '{v}'")),
+    };
+    c.deviation_model = match a.get("deviation-model") {
+        None | Some("even") => digitdrift_core::calibrate::DeviationModel::EvenSpread,
+        Some("observed") => digitdrift_core::calibrate::DeviationModel::ObservedProfile,
+        Some(v) => return Err(format!("--deviation-model takes even or observed, not '{v}'")),
+    };
+    o.calibration = if a.flag("no-calibration") { None } else { Some(c) };
     Ok(o)
 }
 
 pub fn run(raw: &[String]) -> Result<u8, String> {
-    let a = Args::parse(raw, &[])?;
+    let a = Args::parse(raw, &["no-calibration"])?;
     let opts = intake_options(&a)?;
     let sopts = screen_options(&a)?;
     let json = format_flag(&a)?;

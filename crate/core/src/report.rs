@@ -3,14 +3,23 @@
 //! sample-size calibration and the false-alarm control across suppliers.
 
 use crate::battery::{self, Battery, BatteryOptions};
+use crate::calibrate::{CalibrationOptions, Calibrator, Correction, SupplierCalibration, SupplierInput, Verdict};
 use crate::intake::IntakeInfo;
 use crate::ledger::{Accounting, Invoice, Ledger};
 use crate::Amount;
 use serde::Serialize;
 
-#[derive(Clone, Debug, Default)]
+#[derive(Clone, Debug)]
 pub struct ScreenOptions {
     pub battery: BatteryOptions,
+    /// Sample-size calibration of the first-two digits test (None: skip it, raw tests only).
+    pub calibration: Option<CalibrationOptions>,
+}
+
+impl Default for ScreenOptions {
+    fn default() -> Self {
+        ScreenOptions { battery: BatteryOptions::default(), calibration: Some(CalibrationOptions::default()) }
+    }
 }
 
 /// One population's results: a supplier, the whole file, or the credit notes.
@@ -29,6 +38,14 @@ pub struct SupplierResult {
     /// summation, second_order, distortion, amount_checks.
     #[serde(flatten)]
     pub tests: Battery,
+    /// deviates / consistent / too_few, after the correction across the supplier list.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub verdict: Option<Verdict>,
+    /// Invoices needed to detect the deviation model at the chosen confidence and power.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub invoices_needed: Option<Option<u64>>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub calibration: Option<SupplierCalibration>,
 }
 
 #[derive(Clone, Debug, Serialize)]
@@ -41,8 +58,37 @@ pub struct ScreenReport {
     pub credit_notes: SupplierResult,
     /// Ranked: most deviating first.
     pub suppliers: Vec<SupplierResult>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub calibration: Option<CalibrationSummary>,
     pub caution: &'static str,
 }
+
+/// What the calibration did across the list, and the overview chart's limit curves.
+#[derive(Clone, Debug, Serialize)]
+pub struct CalibrationSummary {
+    pub confidence: f64,
+    pub seed: u64,
+    pub sims: u32,
+    pub power: f64,
+    pub fabricated_share: f64,
+    pub correction: Correction,
+    /// Level the corrected p-values are held to (1 - confidence).
+    pub q: f64,
+    pub alarms: usize,
+    pub deviates: Vec<String>,
+    pub too_few: usize,
+    /// Critical first-two MAD against invoice count, at `confidence` and at 99.9 % (or 99 %).
+    pub limit_curves: Vec<LimitCurve>,
+    pub note: &'static str,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct LimitCurve {
+    pub confidence: f64,
+    pub points: Vec<(u64, f64)>,
+}
+
+pub const CALIBRATION_NOTE: &str = "Verdicts compare each supplier's first-two digits MAD with the MADs of simulated honest suppliers of exactly its invoice count (exact multinomial samples from Benford's law); the p-values are then corrected across the supplier list. 'too_few' means that even wholly fabricated, evenly spread amounts could not be told apart at this size with the chosen power.";
 
 #[derive(Clone, Debug, Serialize)]
 pub struct Parameters {
@@ -80,6 +126,73 @@ pub fn population(id: u32, name: &str, invs: &[&Invoice], opts: &ScreenOptions) 
         first_date: date(d0),
         last_date: date(d1),
         tests: battery::run(invs, &opts.battery),
+        verdict: None,
+        invoices_needed: None,
+        calibration: None,
+    }
+}
+
+fn first_two_counts(s: &SupplierResult, invs: &[&Invoice]) -> Vec<u64> {
+    match &s.tests.first_two {
+        Some(t) => t.counts.clone(),
+        None => {
+            let mut c = vec![0u64; 90];
+            for i in invs {
+                if let Some(d) = i.amount.leading_digits(2) {
+                    c[(d - 10) as usize] += 1;
+                }
+            }
+            c
+        }
+    }
+}
+
+/// Calibrate the suppliers (in place) and summarise.
+fn calibrate(suppliers: &mut [SupplierResult], counts: &[Vec<u64>], copts: &CalibrationOptions) -> CalibrationSummary {
+    let mut cal = Calibrator::new(copts.clone());
+    let inputs: Vec<SupplierInput> = suppliers
+        .iter()
+        .zip(counts)
+        .map(|(s, c)| SupplierInput { first_two_counts: c.clone(), amount_min: s.amount_min, amount_max: s.amount_max })
+        .collect();
+    let lc = cal.ledger(&inputs);
+    for (s, c) in suppliers.iter_mut().zip(lc.suppliers) {
+        if let Some(ft) = s.tests.first_two.as_mut() {
+            ft.mc_p_value = Some(c.mc_p_value);
+            ft.mad_critical = Some(c.mad_critical);
+        }
+        s.verdict = Some(c.verdict);
+        s.invoices_needed = Some(c.invoices_needed);
+        s.calibration = Some(c);
+    }
+    let nmax = suppliers.iter().map(|s| s.invoices).max().unwrap_or(100).max(100);
+    let nmin = suppliers.iter().map(|s| s.invoices).filter(|&n| n > 0).min().unwrap_or(10).clamp(10, 100);
+    let mut ns: Vec<u64> = Vec::new();
+    let (l0, l1) = ((nmin as f64).ln(), ((nmax as f64) * 1.5).ln());
+    for k in 0..=24 {
+        let n = (l0 + (l1 - l0) * k as f64 / 24.0).exp().round() as u64;
+        if ns.last() != Some(&n) {
+            ns.push(n);
+        }
+    }
+    let hi = if copts.confidence < 0.999 { 0.999 } else { 0.9999 };
+    let limit_curves = [copts.confidence, hi]
+        .iter()
+        .map(|&c| LimitCurve { confidence: c, points: ns.iter().copied().zip(cal.limit_curve(c, &ns)).collect() })
+        .collect();
+    CalibrationSummary {
+        confidence: copts.confidence,
+        seed: copts.seed,
+        sims: copts.sims,
+        power: copts.power,
+        fabricated_share: copts.fabricated_share,
+        correction: lc.correction,
+        q: lc.q,
+        alarms: lc.alarms,
+        deviates: suppliers.iter().filter(|s| s.verdict == Some(Verdict::Deviates)).map(|s| s.name.clone()).collect(),
+        too_few: suppliers.iter().filter(|s| s.verdict == Some(Verdict::TooFew)).count(),
+        limit_curves,
+        note: CALIBRATION_NOTE,
     }
 }
 
@@ -94,15 +207,19 @@ fn rank_key(s: &SupplierResult) -> f64 {
 
 pub fn screen(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions) -> ScreenReport {
     let groups = ledger.by_supplier();
+    let mut counts = Vec::new();
     let mut suppliers: Vec<SupplierResult> = groups
         .iter()
         .enumerate()
         .filter(|(_, g)| !g.is_empty())
         .map(|(sid, g)| {
             let invs: Vec<&Invoice> = g.iter().map(|&i| &ledger.invoices[i as usize]).collect();
-            population(sid as u32, &ledger.suppliers[sid].name, &invs, opts)
+            let r = population(sid as u32, &ledger.suppliers[sid].name, &invs, opts);
+            counts.push(first_two_counts(&r, &invs));
+            r
         })
         .collect();
+    let calibration = opts.calibration.as_ref().map(|c| calibrate(&mut suppliers, &counts, c));
     suppliers.sort_by(|a, b| {
         rank_key(a)
             .partial_cmp(&rank_key(b))
@@ -122,6 +239,7 @@ pub fn screen(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &Scr
         whole_file: population(u32::MAX, "(whole file)", &all, opts),
         credit_notes: population(u32::MAX, "(credit notes)", &credits, opts),
         suppliers,
+        calibration,
         caution: CAUTION,
     }
 }
@@ -141,13 +259,23 @@ pub fn render_text(rep: &ScreenReport) -> String {
         "{:<4} {:<34} {:>8} {:>15} {:>8} {:>9} {:>9} {:>8} {:>7}",
         "rank", "supplier", "invoices", "amount", "MAD 1-2", "p (chi2)", "p 1st", "DF %", "top amt"
     );
+    let _ = write!(s, "");
     let line = |s: &mut String, rank: String, sp: &SupplierResult| {
         let name: String = sp.name.chars().take(34).collect();
         let t = &sp.tests;
         let ft = t.first_two.as_ref();
+        let verdict = match (&sp.verdict, &sp.calibration) {
+            (Some(Verdict::Deviates), Some(c)) => format!("deviates (sim. p {:.2e}, corrected {:.2e})", c.mc_p_value, c.adjusted_p_value.unwrap_or(c.mc_p_value)),
+            (Some(Verdict::Consistent), Some(c)) => format!("consistent (sim. p {:.3})", c.mc_p_value),
+            (Some(Verdict::TooFew), Some(c)) => match c.more_invoices_needed {
+                Some(m) => format!("too few invoices (about {m} more needed)"),
+                None => "too few invoices".to_string(),
+            },
+            _ => String::new(),
+        };
         let _ = writeln!(
             s,
-            "{:<4} {:<34} {:>8} {:>15} {:>8} {:>9} {:>9} {:>8} {:>7}",
+            "{:<4} {:<34} {:>8} {:>15} {:>8} {:>9} {:>9} {:>8} {:>7}  {verdict}",
             rank,
             name,
             sp.invoices,
@@ -165,6 +293,13 @@ pub fn render_text(rep: &ScreenReport) -> String {
     line(&mut s, String::new(), &rep.whole_file);
     if rep.credit_notes.invoices > 0 {
         line(&mut s, String::new(), &rep.credit_notes);
+    }
+    if let Some(c) = &rep.calibration {
+        let _ = writeln!(
+            s,
+            "\nCalibrated at {:.1} % confidence, seed {}, {} simulations per invoice count, {:?} correction across {} suppliers: {} deviate(s), {} with too few invoices for a verdict.",
+            c.confidence * 100.0, c.seed, c.sims, c.correction, rep.suppliers.len(), c.alarms, c.too_few
+        );
     }
     let _ = writeln!(s, "\nMAD 1-2: first-two digits mean absolute deviation; p (chi2): chi-square p-value, 89 df; p 1st: first digit; DF: distortion factor; top amt: share of the most frequent exact amount.");
     let _ = writeln!(s, "\n{}", rep.caution);
