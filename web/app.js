@@ -152,14 +152,18 @@
   }
 
   // ---------- supplier table ----------
+  const VERDICT = { deviates: 'stands out', consistent: 'in line', too_few: 'too few to tell' };
   const columns = [
     { key: 'rank', label: '#', num: true, get: (s, i) => i + 1 },
     { key: 'name', label: 'Supplier', get: (s) => s.name },
+    { key: 'verdict', label: 'Verdict', get: (s) => s.verdict || '', fmt: (v) => VERDICT[v] || '—', cls: (s) => 'v-' + (s.verdict || 'none') },
     { key: 'invoices', label: 'Invoices', num: true, get: (s) => s.invoices, fmt: fmtInt },
     { key: 'amount', label: 'Amount paid', num: true, get: (s) => s.amount_total, fmt: fmtMoney },
-    { key: 'mad', label: 'MAD (10–99)', num: true, get: (s) => s.first_two.mad, fmt: (v) => v.toFixed(5) },
-    { key: 'chi', label: 'Chi-square', num: true, get: (s) => s.first_two.chi_square, fmt: (v) => v.toFixed(1) },
-    { key: 'p', label: 'p-value', num: true, get: (s) => s.first_two.p_value, fmt: fmtP },
+    { key: 'mad', label: 'MAD 10–99', num: true, get: (s) => s.first_two.mad, fmt: (v) => v.toFixed(5) },
+    { key: 'crit', label: 'Limit at this size', num: true, get: (s) => s.first_two.mad_critical ?? Infinity, fmt: (v) => isFinite(v) ? v.toFixed(5) : '—' },
+    { key: 'mcp', label: 'Simulated p', num: true, get: (s) => s.first_two.mc_p_value ?? 1, fmt: fmtP },
+    { key: 'adj', label: 'After list correction', num: true, get: (s) => (s.calibration && s.calibration.adjusted_p_value) ?? 1, fmt: fmtP },
+    { key: 'p', label: 'χ² p', num: true, get: (s) => s.first_two.p_value, fmt: fmtP },
   ];
   function renderSupplierTable() {
     const rep = state.report;
@@ -175,13 +179,56 @@
     const body = ranked.map(({ s, i }) => {
       const tr = el('tr', { tabindex: 0, class: s.id === state.selected ? 'sel' : null, 'data-id': s.id,
         onclick: () => select(s.id), onkeydown: (e) => { if (e.key === 'Enter') select(s.id); } },
-        columns.map((c) => el('td', { class: c.num ? 'num' : null, text: (c.fmt || String)(c.get(s, i)) })));
+        columns.map((c) => el('td', { class: [c.num ? 'num' : '', c.cls ? c.cls(s) : ''].join(' ').trim() || null, text: (c.fmt || String)(c.get(s, i)) })));
       return tr;
     });
     const w = rep.whole_file;
-    const foot = el('tr', { class: 'whole' }, columns.map((c) => el('td', { class: c.num ? 'num' : null, text: c.key === 'rank' ? '' : c.key === 'name' ? 'Whole file' : (c.fmt || String)(c.get(w, 0)) })));
-    t.replaceChildren(el('caption', { text: 'Ranked by chi-square p-value (smallest first). Click a supplier to see its chart; click a bar to list its invoices.' }), el('thead', null, head), el('tbody', null, body), el('tfoot', null, foot));
+    const foot = el('tr', { class: 'whole' }, columns.map((c) => el('td', { class: c.num ? 'num' : null, text: c.key === 'rank' ? '' : c.key === 'name' ? 'Whole file' : ['verdict', 'crit', 'mcp', 'adj'].includes(c.key) ? '' : (c.fmt || String)(c.get(w, 0)) })));
+    t.replaceChildren(el('caption', { text: 'Ranked by the simulated p-value: how unusual the supplier\u2019s first-two digits MAD is among honest suppliers with the same number of invoices. Click a supplier for its chart; click a bar for its invoices.' }), el('thead', null, head), el('tbody', null, body), el('tfoot', null, foot));
     $('caution-main').textContent = CAUTION;
+    renderSummary();
+  }
+  function renderSummary() {
+    const c = state.report.calibration;
+    const box = $('overview');
+    if (!c) { box.replaceChildren(); return; }
+    const n = state.report.suppliers.length;
+    const canvas = el('canvas', { class: 'chart wide', id: 'chart-overview', role: 'img', 'aria-label': 'Every supplier: invoices against first-two digits MAD, with the limits for honest suppliers of each size' });
+    box.replaceChildren(
+      el('p', { class: 'summary', id: 'alarm-summary' }, el('strong', { text: `${c.alarms} of ${n} suppliers stand out` }),
+        ` at ${(100 * c.confidence).toFixed(1)} % confidence after the ${c.correction === 'fdr' ? 'false-discovery-rate (Benjamini–Hochberg)' : c.correction} correction across the list; ${c.too_few} ha${c.too_few === 1 ? 's' : 've'} too few invoices for a verdict. Seed ${c.seed}, ${fmtInt(c.sims)} simulated honest suppliers per invoice count.`),
+      canvas,
+      el('p', { class: 'legend-note', text: 'Each dot is a supplier (red: stands out). The curves are the MAD that honest suppliers of each size exceed only 5 % (or 0.1 %) of the time in simulation: a fixed cut-off would be a flat line, which flags most large honest suppliers and misses small manipulated ones. Click a dot to select that supplier.' }));
+    drawOverview();
+    canvas.addEventListener('click', (e) => {
+      const g = state.geometry['chart-overview'];
+      if (!g) return;
+      const r = canvas.getBoundingClientRect();
+      const x = (e.clientX - r.left) * (canvas.width / r.width), y = (e.clientY - r.top) * (canvas.height / r.height);
+      let best = null, bd = Infinity;
+      for (const s of state.report.suppliers) {
+        const px = g.left + (Math.log10(Math.max(1, s.invoices)) - g.x_min) / (g.x_max - g.x_min) * (g.right - g.left);
+        const py = g.bottom - (s.first_two.mad - g.y_min) / (g.y_max - g.y_min) * (g.bottom - g.top);
+        const d = (px - x) ** 2 + (py - y) ** 2;
+        if (d < bd) { bd = d; best = s; }
+      }
+      if (best && bd < (20 * (window.devicePixelRatio || 1)) ** 2) select(best.id);
+    });
+  }
+  function drawOverview() {
+    const canvas = $('chart-overview');
+    if (!canvas || !state.report.calibration) return;
+    const c = state.report.calibration;
+    const dpr = sizeCanvas(canvas);
+    const ymax = Math.max(...state.report.suppliers.map((s) => s.first_two.mad)) * 1.1;
+    state.geometry['chart-overview'] = wasm_bindgen.drawScatter(canvas, {
+      title: 'Suppliers by size: first-two digits MAD against invoices', log_x: true, scale: dpr, x_label: 'invoices (log scale)', y_label: 'MAD, first-two digits',
+      y_min: 0, y_max: ymax,
+      points: state.report.suppliers.map((s) => ({ x: s.invoices, y: s.first_two.mad, alarm: s.verdict === 'deviates', selected: s.id === state.selected })),
+      curves: c.limit_curves.map((l, i) => ({ label: `limit at ${(100 * l.confidence).toFixed(1)} %`, points: l.points.filter((p) => isFinite(p[1])), dashed: i > 0 })),
+      h_lines: [[0.0022, 'fixed cut-off 0.0022 (ignores size)']],
+    });
+    canvas.dataset.drawn = 'yes';
   }
   function select(id) {
     state.selected = id;
@@ -189,6 +236,7 @@
     for (const tr of document.querySelectorAll('#supplier-table tbody tr')) tr.classList.toggle('sel', Number(tr.dataset.id) === id);
     $('drill').replaceChildren();
     drawSelected();
+    drawOverview();
   }
   function supplierById(id) { return state.report && state.report.suppliers.find((s) => s.id === id); }
 
@@ -291,7 +339,15 @@
     const facts = el('p', { class: 'facts' }, `${fmtInt(d.invoices)} invoices · ${fmtMoney(d.amount_total)} paid · amounts ${fmtMoney(d.amount_min)} to ${fmtMoney(d.amount_max)}` + (d.first_date ? ` · ${d.first_date} to ${d.last_date}` : ''));
     const drillBox = el('div', { id: 'file-drill', class: 'drill' });
     const charts = el('div', { class: 'chart-grid' });
-    body.replaceChildren(el('p', { class: 'caution', text: CAUTION }), facts, testSummary(d), charts, drillBox, amountChecks(d, drillBox));
+    const powerCanvas = el('canvas', { class: 'chart', id: 'chart-power', role: 'img', 'aria-label': 'Power curve: chance of detecting the deviation model against invoice count' });
+    body.replaceChildren(el('p', { class: 'caution', text: CAUTION }), facts, verdictBlock(d, powerCanvas), testSummary(d), charts, drillBox, amountChecks(d, drillBox));
+    if (d.calibration && d.calibration.power_curve.length) {
+      const cal = d.calibration, dpr = sizeCanvas(powerCanvas);
+      wasm_bindgen.drawScatter(powerCanvas, { title: 'How many invoices a verdict needs', log_x: true, scale: dpr, as_line: true, x_label: 'invoices (log scale)', y_label: 'chance of detection',
+        y_min: 0, y_max: 1.02, points: cal.power_curve.map((p) => ({ x: p.invoices, y: p.power })),
+        h_lines: [[state.report.calibration.power, 'target power']], v_lines: [[d.invoices, 'now']] });
+      powerCanvas.dataset.drawn = 'yes';
+    }
     for (const [key, title, xl] of TESTS) {
       const t = d[key];
       if (!t) continue;
@@ -328,6 +384,18 @@
         flags: sm.shares.map((x) => x >= sm.flag_ratio * sm.expected_share ? 2 : 0), scale: dpr, x_label: 'first-two digits', y_label: 'share of amount' });
       c.dataset.drawn = 'yes';
     }
+  }
+  function verdictBlock(d, powerCanvas) {
+    const c = d.calibration;
+    if (!c) return null;
+    const conf = (100 * c.confidence).toFixed(1) + ' %';
+    const model = c.deviation_model === 'even_spread' ? `${Math.round(100 * c.fabricated_share)} % of its invoices invented with amounts spread evenly over its own range` : 'its observed digit profile';
+    let words;
+    if (d.verdict === 'deviates') words = `Stands out: among simulated honest suppliers with ${fmtInt(d.invoices)} invoices, a first-two digits MAD of ${c.mad.toFixed(5)} or more happens with probability ${fmtP(c.mc_p_value)} (${fmtP(c.adjusted_p_value ?? c.mc_p_value)} after correcting for the number of suppliers screened). The limit at this size is ${c.mad_critical.toFixed(5)} at ${conf}. This is a reason to look at its invoices, not a finding.`;
+    else if (d.verdict === 'too_few') words = `Too few invoices to tell: with ${fmtInt(d.invoices)} invoices, even a supplier whose amounts were all invented and spread evenly would be caught only ${Math.round(100 * c.power_full_fabrication)} % of the time.` + (c.more_invoices_needed !== null && c.more_invoices_needed !== undefined ? ` To detect ${model} with ${Math.round(100 * state.report.calibration.power)} % power at ${conf}, it needs about ${fmtInt(c.invoices_needed)} invoices — ${fmtInt(c.more_invoices_needed)} more.` : '');
+    else words = `In line with honest suppliers of its size: MAD ${c.mad.toFixed(5)} against a limit of ${c.mad_critical.toFixed(5)} at ${conf} (simulated p ${fmtP(c.mc_p_value)}).` + (c.invoices_needed ? ` At this size the screen would catch ${model} ${c.more_invoices_needed === 0 ? 'with at least' : 'only with about ' + fmtInt(c.invoices_needed) + ' invoices for'} ${Math.round(100 * state.report.calibration.power)} % power.` : ` The screen could not reach ${Math.round(100 * state.report.calibration.power)} % power against ${model} within the simulated range.`);
+    return el('div', { class: 'verdict v-' + d.verdict }, el('h2', { text: 'Verdict for its size: ' + (VERDICT[d.verdict] || '—') }), el('p', { id: 'verdict-words', text: words }),
+      el('p', { class: 'small', text: `Seed ${c.seed} · ${fmtInt(c.sims)} simulations per size. Same file and seed give the same numbers.` }), powerCanvas);
   }
   function testSummary(d) {
     const rows = TESTS.filter(([k]) => d[k]).map(([k, title]) => {
