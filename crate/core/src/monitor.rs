@@ -1,1 +1,1049 @@
-//! (lands with its issue)
+//! Continuous monitoring: evidence against Benford's law that stays valid however often it is
+//! looked at, a change detector with a stated false-alarm run length, replay as of a date, and an
+//! estimate of the amount at risk.
+//!
+//! # What is computed, per supplier
+//!
+//! Each supplier's invoices are read in date order (ties by file order, i.e. line number). When
+//! any of a supplier's invoices has no date, that supplier is read in file order only, and the
+//! report says so. Every invoice contributes its first-two digits `d` (10..=99), read exactly
+//! from the integer amount ([`Amount::leading_digits`]).
+//!
+//! **Alternatives.** Fabricated amounts are modelled as a share `λ` of invoices whose amounts are
+//! spread evenly over some range, the rest following Benford:
+//! `q(d) = (1 - λ) p(d) + λ u_r(d)`, where `p` is the Benford first-two distribution and `u_r`
+//! the exact first-two distribution of an amount spread evenly (uniformly) over the range `r`
+//! ([`even_spread_first_two`]). The family ([`Family::standard`]) is a fixed grid chosen before
+//! seeing any data: ranges with "round" lower ends `a ∈ {1, 2, 3, 5, 7}` (times any power of
+//! ten) and upper ends `a·m` with `m ∈ {2, 3, 5, 10}` (20 ranges; those with `a·m > 10` cross a
+//! power of ten), times shares `λ ∈ {0.15, 0.4, 1}`: K = 60 alternatives, each with prior weight
+//! 1/60. This is a one-parameter-per-component family instead of a Dirichlet mixture over all
+//! 90 bins: a mixture over 90 bins pays about (89/2)·ln n nats of "regret" for not knowing the
+//! alternative, a finite grid pays at most ln 60 ≈ 4.1 nats, which is what makes the detector
+//! react in tens rather than hundreds of invoices (measured in `tests/monitor_power.rs`).
+//!
+//! **Since the first invoice** (an e-process). For each alternative `k` the likelihood ratio
+//! `W_k(t) = Π_{i≤t} q_k(d_i)/p(d_i)` is a non-negative martingale with mean 1 under Benford
+//! (a *test martingale*: Ville 1939; Shafer, Shen, Vereshchagin & Vovk, "Test martingales,
+//! Bayes factors and p-values", Statistical Science 2011). Their prior-weighted average
+//! `E(t) = Σ_k π_k W_k(t)` is again a test martingale (a discrete Robbins-type mixture: Robbins,
+//! "Statistical methods related to the law of the iterated logarithm", Ann. Math. Stat. 1970;
+//! averages of e-values stay e-values: Vovk & Wang, "E-values: calibration, combination and
+//! applications", Ann. Stat. 2021). By Ville's inequality `P(sup_t E(t) ≥ 1/α) ≤ α` on honest
+//! (Benford) data, so the alarm "E crosses 1/α", α = 1 − confidence, may be checked after every
+//! invoice with no inflation of the false-alarm chance (the "safe testing" reading of e-values:
+//! Grünwald, de Heide & Koolen, "Safe testing", JRSS B 2024; Ramdas, Grünwald, Vovk & Shafer,
+//! "Game-theoretic statistics and safe anytime-valid inference", Stat. Sci. 2023 — citations
+//! from memory). `E(t)` depends on the digit counts only, so it also has a closed form
+//! ([`closed_form_log_since_start`]) that the O(K) update is tested against.
+//!
+//! **Since a change** (an e-detector of Shiryaev–Roberts type). For each alternative,
+//! `R_k(t) = (R_k(t-1) + 1) · q_k(d_t)/p(d_t)`, `R_k(0) = 0`, i.e. the sum over all possible
+//! change points `j ≤ t` of the likelihood ratio of invoices `j..=t` (Shiryaev 1963; Roberts
+//! 1966). The detector is `R(t) = Σ_k π_k R_k(t)`. Under Benford `E[R(t) | past] = R(t-1) + 1`,
+//! so `R(t) - t` is a martingale, and by optional stopping the alarm time
+//! `τ = min{t : R(t) ≥ c}` has average run length `E[τ] ≥ c` invoices on honest data (Pollak,
+//! "Average run lengths of an optimal method of detecting a change in distribution", Ann. Stat.
+//! 1987; as an "e-detector": Shin, Ramdas & Rinaldo, "E-detectors: a nonparametric framework for
+//! sequential change detection", 2023/24 — from memory). Doob's maximal inequality on the
+//! submartingale `R` also gives `P(τ ≤ m) ≤ m / c`.
+//!
+//! **Threshold of the change detector.** `c = arl_years × (invoices per year of that supplier)`,
+//! where invoices per year is the supplier's invoice count over its dated span in years
+//! (365.25 days), the span taken as at least one year; undated suppliers are treated as if their
+//! file covered one year. So with the default 100 years, the average time to a false alarm on an
+//! honest supplier is at least 100 years of that supplier's invoicing, and a list of 40 honest
+//! suppliers sees on average at most about one false alarm per 2.5 years. `c` is never set
+//! below `1/α`.
+//!
+//! **Cost.** Both statistics update in O(K) per invoice (K = 60) from a precomputed 90×K table
+//! of ratios, with a shared scale factor so that nothing overflows; components smaller than
+//! 1e-200 of their statistic are set to zero, which can only lower the statistic (so the
+//! guarantees above still hold).
+//!
+//! An alarm is a reason to look, not proof of fraud: suppliers must not be accused on it alone;
+//! defer to professional auditing standards, local law and counsel.
+
+use crate::amount::Amount;
+use crate::benford;
+use crate::intake::format_date;
+use crate::ledger::{Invoice, Ledger, NO_DATE};
+use serde::Serialize;
+
+/// Number of first-two digit bins (10..=99).
+pub const BINS: usize = 90;
+
+/// First-two digit bin (0 = "10", 89 = "99") of an amount, read exactly. None for zero.
+#[inline]
+pub fn first_two_bin(a: Amount) -> Option<usize> {
+    a.leading_digits(2).map(|d| (d - 10) as usize)
+}
+
+/// Exact first-two digit distribution of an amount spread evenly (uniformly) over `[lo, hi)`,
+/// `0 < lo`. Bin `b` gets the total length of `[lo, hi) ∩ ⋃_k [(10+b)·10^k, (11+b)·10^k)` over
+/// `hi - lo`. When `hi <= lo` (a single value) the whole mass goes to the bin of `lo`.
+pub fn even_spread_first_two(lo: f64, hi: f64) -> [f64; BINS] {
+    let mut q = [0.0f64; BINS];
+    assert!(lo > 0.0 && lo.is_finite() && hi.is_finite(), "even spread needs 0 < lo, finite ends");
+    if hi <= lo {
+        let e = lo.log10().floor() as i32 - 1;
+        let mut d = (lo / 10f64.powi(e)).floor() as i64;
+        d = d.clamp(10, 99);
+        q[(d - 10) as usize] = 1.0;
+        return q;
+    }
+    let k0 = lo.log10().floor() as i32 - 2;
+    let k1 = hi.log10().floor() as i32;
+    for k in k0..=k1 {
+        let s = 10f64.powi(k);
+        for (b, qb) in q.iter_mut().enumerate() {
+            let a = (10 + b) as f64 * s;
+            let z = (11 + b) as f64 * s;
+            let len = z.min(hi) - a.max(lo);
+            if len > 0.0 {
+                *qb += len;
+            }
+        }
+    }
+    let tot: f64 = q.iter().sum();
+    for v in q.iter_mut() {
+        *v /= tot;
+    }
+    q
+}
+
+/// One alternative to Benford: share `share` of amounts spread evenly over
+/// `[low, high) × 10^j` (any power of ten), the rest Benford.
+#[derive(Clone, Copy, Debug, Serialize, PartialEq)]
+pub struct Alternative {
+    pub low: f64,
+    pub high: f64,
+    pub share: f64,
+}
+
+impl Alternative {
+    /// First-two probabilities `(1 - share) p + share u`.
+    pub fn first_two(&self) -> [f64; BINS] {
+        let u = even_spread_first_two(self.low, self.high);
+        let p = benford::first_two();
+        let mut q = [0.0; BINS];
+        for b in 0..BINS {
+            q[b] = (1.0 - self.share) * p[b] + self.share * u[b];
+        }
+        q
+    }
+}
+
+/// A fixed, weighted family of alternatives with its table of likelihood ratios.
+#[derive(Clone, Debug)]
+pub struct Family {
+    alts: Vec<Alternative>,
+    weights: Vec<f64>,
+    /// `ratio[b * k_pad + k] = q_k(b) / p(b)`, padded with ratio 1 / weight 0 to a multiple of 4.
+    ratio: Vec<f64>,
+    log_ratio: Vec<f64>,
+    k_pad: usize,
+}
+
+/// Lower ends of the standard ranges (times any power of ten).
+pub const STANDARD_LOWS: [f64; 5] = [1.0, 2.0, 3.0, 5.0, 7.0];
+/// Upper end over lower end of the standard ranges.
+pub const STANDARD_SPANS: [f64; 4] = [2.0, 3.0, 5.0, 10.0];
+/// Shares of evenly spread amounts in the standard family.
+pub const STANDARD_SHARES: [f64; 3] = [0.15, 0.4, 1.0];
+
+impl Family {
+    /// The standard grid (see the module documentation): 20 ranges × 3 shares, equal weights.
+    pub fn standard() -> Family {
+        let mut alts = Vec::new();
+        for &a in &STANDARD_LOWS {
+            for &m in &STANDARD_SPANS {
+                for &s in &STANDARD_SHARES {
+                    alts.push(Alternative { low: a, high: a * m, share: s });
+                }
+            }
+        }
+        let w = vec![1.0 / alts.len() as f64; alts.len()];
+        Family::new(alts, w)
+    }
+
+    /// Any family; weights are normalised to sum to one.
+    pub fn new(alts: Vec<Alternative>, weights: Vec<f64>) -> Family {
+        assert!(!alts.is_empty() && alts.len() == weights.len());
+        let ws: f64 = weights.iter().sum();
+        let weights: Vec<f64> = weights.iter().map(|w| w / ws).collect();
+        let k = alts.len();
+        let k_pad = k.div_ceil(4) * 4;
+        let p = benford::first_two();
+        let mut ratio = vec![1.0; BINS * k_pad];
+        let mut log_ratio = vec![0.0; BINS * k_pad];
+        for (j, a) in alts.iter().enumerate() {
+            let q = a.first_two();
+            for b in 0..BINS {
+                let r = q[b] / p[b];
+                ratio[b * k_pad + j] = r;
+                log_ratio[b * k_pad + j] = r.ln();
+            }
+        }
+        Family { alts, weights, ratio, log_ratio, k_pad }
+    }
+
+    pub fn len(&self) -> usize {
+        self.alts.len()
+    }
+    pub fn is_empty(&self) -> bool {
+        self.alts.is_empty()
+    }
+    pub fn alternatives(&self) -> &[Alternative] {
+        &self.alts
+    }
+    pub fn weights(&self) -> &[f64] {
+        &self.weights
+    }
+    /// `q_k(bin) / p(bin)`.
+    pub fn ratio(&self, k: usize, bin: usize) -> f64 {
+        self.ratio[bin * self.k_pad + k]
+    }
+}
+
+/// Crossings found by one [`Monitor::push`].
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq)]
+pub struct Crossing {
+    /// Since-the-start evidence is at or above its threshold after this invoice.
+    pub since_start: bool,
+    /// Since-a-change detector is at or above its threshold after this invoice.
+    pub since_change: bool,
+}
+
+/// The running state of both statistics for one stream of first-two digits.
+#[derive(Clone, Debug)]
+pub struct Monitor<'a> {
+    fam: &'a Family,
+    /// Since-start components π_k W_k, times e^{-scale_w}.
+    w: Vec<f64>,
+    /// Change-detector components π_k R_k, times e^{-scale_r}.
+    r: Vec<f64>,
+    /// π_k e^{-scale_r}: the "+1" of the Shiryaev–Roberts recursion, scaled.
+    pi_r: Vec<f64>,
+    scale_w: f64,
+    scale_r: f64,
+    sum_w: f64,
+    sum_r: f64,
+    log_thr_w: f64,
+    log_thr_r: f64,
+    thr_w: f64,
+    thr_r: f64,
+    n: u64,
+    counts: [u64; BINS],
+}
+
+const RESCALE_HI: f64 = 1e100;
+const RESCALE_LO: f64 = 1e-100;
+const FLUSH_REL: f64 = 1e-200;
+const FLUSH_EVERY: u64 = 64;
+
+impl<'a> Monitor<'a> {
+    /// A fresh monitor; alarms at `ln E ≥ log_thr_start` and `ln R ≥ log_thr_change`.
+    pub fn new(fam: &'a Family, log_thr_start: f64, log_thr_change: f64) -> Monitor<'a> {
+        let mut m = Monitor {
+            fam,
+            w: vec![0.0; fam.k_pad],
+            r: vec![0.0; fam.k_pad],
+            pi_r: vec![0.0; fam.k_pad],
+            scale_w: 0.0,
+            scale_r: 0.0,
+            sum_w: 1.0,
+            sum_r: 0.0,
+            log_thr_w: log_thr_start,
+            log_thr_r: log_thr_change,
+            thr_w: 0.0,
+            thr_r: 0.0,
+            n: 0,
+            counts: [0; BINS],
+        };
+        m.reset(log_thr_start, log_thr_change);
+        m
+    }
+
+    /// Start again (a new supplier) with new thresholds.
+    pub fn reset(&mut self, log_thr_start: f64, log_thr_change: f64) {
+        let k = self.fam.len();
+        for j in 0..self.fam.k_pad {
+            let pi = if j < k { self.fam.weights[j] } else { 0.0 };
+            self.w[j] = pi;
+            self.pi_r[j] = pi;
+            self.r[j] = 0.0;
+        }
+        self.scale_w = 0.0;
+        self.scale_r = 0.0;
+        self.sum_w = 1.0;
+        self.sum_r = 0.0;
+        self.log_thr_w = log_thr_start;
+        self.log_thr_r = log_thr_change;
+        self.thr_w = log_thr_start.exp();
+        self.thr_r = log_thr_change.exp();
+        self.n = 0;
+        self.counts = [0; BINS];
+    }
+
+    /// Add one invoice (its first-two digit bin, 0..90). O(K).
+    #[inline]
+    pub fn push(&mut self, bin: usize) -> Crossing {
+        let kp = self.fam.k_pad;
+        let row = &self.fam.ratio[bin * kp..bin * kp + kp];
+        let mut sw = [0.0f64; 4];
+        let mut sr = [0.0f64; 4];
+        for (((w4, r4), p4), l4) in self
+            .w
+            .chunks_exact_mut(4)
+            .zip(self.r.chunks_exact_mut(4))
+            .zip(self.pi_r.chunks_exact(4))
+            .zip(row.chunks_exact(4))
+        {
+            for i in 0..4 {
+                let l = l4[i];
+                let w = w4[i] * l;
+                w4[i] = w;
+                sw[i] += w;
+                let r = (r4[i] + p4[i]) * l;
+                r4[i] = r;
+                sr[i] += r;
+            }
+        }
+        self.sum_w = (sw[0] + sw[1]) + (sw[2] + sw[3]);
+        self.sum_r = (sr[0] + sr[1]) + (sr[2] + sr[3]);
+        self.n += 1;
+        self.counts[bin] += 1;
+        if !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_w) || !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_r) || self.n % FLUSH_EVERY == 0 {
+            self.rescale();
+        }
+        Crossing { since_start: self.sum_w >= self.thr_w, since_change: self.sum_r >= self.thr_r }
+    }
+
+    #[cold]
+    fn rescale(&mut self) {
+        let k = self.fam.len();
+        if self.sum_w > 0.0 && !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_w) {
+            let s = self.sum_w;
+            for v in self.w.iter_mut() {
+                *v /= s;
+            }
+            self.scale_w += s.ln();
+            self.sum_w = 1.0;
+            self.thr_w = (self.log_thr_w - self.scale_w).exp();
+        }
+        if self.sum_r > 0.0 && !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_r) {
+            let s = self.sum_r;
+            for v in self.r.iter_mut() {
+                *v /= s;
+            }
+            self.scale_r += s.ln();
+            self.sum_r = 1.0;
+            self.thr_r = (self.log_thr_r - self.scale_r).exp();
+            // The "+1" term, scaled; below e^-600 of the statistic it is dropped (conservative).
+            let f = if self.scale_r > 600.0 { 0.0 } else { (-self.scale_r).exp() };
+            for j in 0..k {
+                self.pi_r[j] = self.fam.weights[j] * f;
+            }
+        }
+        let fw = self.sum_w * FLUSH_REL;
+        for v in self.w.iter_mut() {
+            if *v < fw {
+                *v = 0.0;
+            }
+        }
+        let fr = self.sum_r * FLUSH_REL;
+        for v in self.r.iter_mut() {
+            if *v < fr {
+                *v = 0.0;
+            }
+        }
+    }
+
+    /// ln E(t): the since-the-start e-process now.
+    pub fn log_since_start(&self) -> f64 {
+        self.sum_w.ln() + self.scale_w
+    }
+    /// ln R(t): the since-a-change (Shiryaev–Roberts) statistic now; −∞ before any invoice.
+    pub fn log_since_change(&self) -> f64 {
+        self.sum_r.ln() + self.scale_r
+    }
+    pub fn invoices(&self) -> u64 {
+        self.n
+    }
+    pub fn counts(&self) -> &[u64; BINS] {
+        &self.counts
+    }
+    /// Index of the alternative carrying most of the change detector now.
+    pub fn leading_change_alternative(&self) -> usize {
+        let k = self.fam.len();
+        (0..k).max_by(|&a, &b| self.r[a].partial_cmp(&self.r[b]).unwrap()).unwrap_or(0)
+    }
+}
+
+/// ln E from the digit counts alone: `ln Σ_k π_k exp(Σ_b n_b ln(q_k(b)/p(b)))`
+/// (log-sum-exp). This is the closed form the O(K) update must agree with.
+pub fn closed_form_log_since_start(fam: &Family, counts: &[u64; BINS]) -> f64 {
+    let k = fam.len();
+    let mut terms = Vec::with_capacity(k);
+    for j in 0..k {
+        let mut s = fam.weights[j].ln();
+        for b in 0..BINS {
+            if counts[b] > 0 {
+                s += counts[b] as f64 * fam.log_ratio[b * fam.k_pad + j];
+            }
+        }
+        terms.push(s);
+    }
+    log_sum_exp(&terms)
+}
+
+/// ln R from the whole sequence by the definition `Σ_k π_k Σ_{j≤t} Π_{i=j..t} q_k/p`, O(t·K)
+/// in log space (for tests of the recursion).
+pub fn direct_log_since_change(fam: &Family, bins: &[usize]) -> f64 {
+    let k = fam.len();
+    let mut terms = Vec::with_capacity(k * bins.len());
+    for j in 0..k {
+        // suffix sums of log ratios
+        let mut s = 0.0;
+        for &b in bins.iter().rev() {
+            s += fam.log_ratio[b * fam.k_pad + j];
+            terms.push(fam.weights[j].ln() + s);
+        }
+    }
+    log_sum_exp(&terms)
+}
+
+fn log_sum_exp(t: &[f64]) -> f64 {
+    let m = t.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
+    if !m.is_finite() {
+        return m;
+    }
+    m + t.iter().map(|v| (v - m).exp()).sum::<f64>().ln()
+}
+
+// ---------------------------------------------------------------------------------------------
+// Share of evenly spread amounts: maximum likelihood and profile-likelihood interval.
+
+/// Maximum-likelihood share `λ` of the mixture `(1-λ) p + λ u` given first-two counts, with a
+/// profile-likelihood interval `{λ : 2(ℓ(λ̂) - ℓ(λ)) ≤ χ²₁(conf)}` (Wilks 1938; for a single
+/// parameter the profile likelihood is the likelihood itself).
+#[derive(Clone, Copy, Debug, Serialize, PartialEq)]
+pub struct ShareEstimate {
+    pub mle: f64,
+    pub low: f64,
+    pub high: f64,
+}
+
+fn loglik(counts: &[u64; BINS], p: &[f64], u: &[f64; BINS], lam: f64) -> f64 {
+    let mut s = 0.0;
+    for b in 0..BINS {
+        if counts[b] > 0 {
+            s += counts[b] as f64 * ((1.0 - lam) * p[b] + lam * u[b]).ln();
+        }
+    }
+    s
+}
+
+fn dloglik(counts: &[u64; BINS], p: &[f64], u: &[f64; BINS], lam: f64) -> f64 {
+    let mut s = 0.0;
+    for b in 0..BINS {
+        if counts[b] > 0 {
+            s += counts[b] as f64 * (u[b] - p[b]) / ((1.0 - lam) * p[b] + lam * u[b]);
+        }
+    }
+    s
+}
+
+/// See [`ShareEstimate`]. `conf` in (0, 1).
+pub fn fabricated_share(counts: &[u64; BINS], u: &[f64; BINS], conf: f64) -> ShareEstimate {
+    let p = benford::first_two();
+    let n: u64 = counts.iter().sum();
+    if n == 0 {
+        return ShareEstimate { mle: 0.0, low: 0.0, high: 1.0 };
+    }
+    // ℓ is concave in λ: bisection on the derivative.
+    let mle = if dloglik(counts, &p, u, 0.0) <= 0.0 {
+        0.0
+    } else if dloglik(counts, &p, u, 1.0 - 1e-12) >= 0.0 {
+        1.0
+    } else {
+        let (mut a, mut b) = (0.0, 1.0 - 1e-12);
+        for _ in 0..200 {
+            let m = 0.5 * (a + b);
+            if dloglik(counts, &p, u, m) > 0.0 {
+                a = m;
+            } else {
+                b = m;
+            }
+            if b - a < 1e-13 {
+                break;
+            }
+        }
+        0.5 * (a + b)
+    };
+    let crit = chi2_1_quantile(conf) / 2.0;
+    let lmax = loglik(counts, &p, u, mle);
+    let below = |lam: f64| lmax - loglik(counts, &p, u, lam) > crit;
+    let root = |mut inside: f64, mut outside: f64| {
+        for _ in 0..200 {
+            let m = 0.5 * (inside + outside);
+            if below(m) {
+                outside = m;
+            } else {
+                inside = m;
+            }
+            if (outside - inside).abs() < 1e-12 {
+                break;
+            }
+        }
+        0.5 * (inside + outside)
+    };
+    let low = if below(0.0) { root(mle, 0.0) } else { 0.0 };
+    let high = if below(1.0) { root(mle, 1.0) } else { 1.0 };
+    ShareEstimate { mle, low, high }
+}
+
+/// Quantile of the chi-square distribution with one degree of freedom: (Φ⁻¹((1+c)/2))².
+pub fn chi2_1_quantile(conf: f64) -> f64 {
+    use statrs::distribution::{ContinuousCDF, Normal};
+    let z = Normal::new(0.0, 1.0).unwrap().inverse_cdf(0.5 + conf / 2.0);
+    z * z
+}
+
+// ---------------------------------------------------------------------------------------------
+// The watch report.
+
+#[derive(Clone, Debug, Serialize)]
+pub struct WatchOptions {
+    /// Confidence of the since-the-start alarm: alarm when E ≥ 1/(1 − confidence). Default 0.95.
+    pub confidence: f64,
+    /// Replay date (days since 1970-01-01): the state as of the end of that day.
+    pub as_of: Option<i32>,
+    /// Average run length of the change detector on honest data, in years of each supplier's
+    /// own invoicing. Default 100.
+    pub arl_years: f64,
+    /// Most points kept in each supplier's evidence trajectory (besides the alarm point). Default 400.
+    pub trajectory_points: usize,
+}
+
+impl Default for WatchOptions {
+    fn default() -> Self {
+        WatchOptions { confidence: 0.95, as_of: None, arl_years: 100.0, trajectory_points: 400 }
+    }
+}
+
+/// Evidence now (or as of a date), natural logarithms.
+#[derive(Clone, Debug, Serialize)]
+pub struct Evidence {
+    /// ln E: since-the-start e-process.
+    pub since_start_log: f64,
+    /// ln(1/α): alarm line of the since-the-start evidence.
+    pub since_start_threshold_log: f64,
+    /// ln R: since-a-change (Shiryaev–Roberts e-detector) statistic.
+    pub since_change_log: f64,
+    /// ln c: alarm line of the change detector.
+    pub since_change_threshold_log: f64,
+    /// c: guaranteed lower bound on the average run length on honest data, in invoices.
+    pub run_length_invoices: f64,
+    /// The same bound in years of this supplier's invoicing.
+    pub run_length_years: f64,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct TrajectoryPoint {
+    /// 1-based position of the invoice in the supplier's (date-ordered) stream.
+    pub invoice: u64,
+    pub date: Option<String>,
+    pub since_start_log: f64,
+    pub since_change_log: f64,
+    /// True on the point of the alarm.
+    pub alarm: bool,
+}
+
+/// Estimate of the fabricated part of an alarmed supplier's payments. An estimate, not a finding.
+#[derive(Clone, Debug, Serialize)]
+pub struct FabricatedEstimate {
+    /// Estimated start of the deviation: first invoice for a since-the-start alarm, otherwise
+    /// the last restart of a CUSUM run with the alternative leading the detector at the alarm.
+    pub window_from_invoice: u64,
+    pub window_from_date: Option<String>,
+    pub window_invoices: u64,
+    pub window_paid: Amount,
+    /// The even spread used: over the supplier's own range of amounts in the window.
+    pub even_spread_low: Amount,
+    pub even_spread_high: Amount,
+    /// Maximum-likelihood share of evenly spread amounts, with profile-likelihood interval.
+    pub share: ShareEstimate,
+    /// Expected amount in the evenly spread component: Σ amount × P(even spread | digits),
+    /// at the estimate and at the interval ends (currency units).
+    pub amount: f64,
+    pub amount_low: f64,
+    pub amount_high: f64,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct SupplierWatch {
+    pub id: u32,
+    pub name: String,
+    pub invoices: u64,
+    pub amount_total: Amount,
+    pub first_date: Option<String>,
+    pub last_date: Option<String>,
+    /// "date" or "file order" (when some invoices have no date).
+    pub order: &'static str,
+    pub undated_invoices: u64,
+    pub invoices_per_year: f64,
+    pub in_alarm: bool,
+    /// ISO date of the first crossing (null when none, or when that invoice has no date).
+    pub alarm_date: Option<String>,
+    /// 1-based position in the stream of the invoice that raised the alarm.
+    pub alarm_invoice: Option<u64>,
+    pub alarm_line: Option<u32>,
+    /// "since_start" or "since_change" (the first to cross; since_start on a tie).
+    pub alarm_evidence: Option<&'static str>,
+    pub since_start_alarm_date: Option<String>,
+    pub since_change_alarm_date: Option<String>,
+    /// Invoices and amount up to and including the invoice that raised the alarm.
+    pub invoices_before_alarm: Option<u64>,
+    pub paid_before_alarm: Option<Amount>,
+    /// Invoices and amount after that invoice.
+    pub invoices_after_alarm: Option<u64>,
+    pub paid_after_alarm: Option<Amount>,
+    pub evidence: Evidence,
+    pub trajectory: Vec<TrajectoryPoint>,
+    pub estimate: Option<FabricatedEstimate>,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct ReplaySupplier {
+    pub id: u32,
+    pub name: String,
+    pub alarm_date: Option<String>,
+    pub alarm_evidence: Option<&'static str>,
+    /// Invoices dated on or before the as-of date.
+    pub invoices_so_far: u64,
+    pub paid_so_far: Amount,
+    pub paid_since_alarm: Amount,
+    pub evidence: Evidence,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct Replay {
+    pub as_of: String,
+    pub suppliers_in_alarm: Vec<ReplaySupplier>,
+    pub paid_to_suppliers_in_alarm: Amount,
+    /// Invoices that could not be placed in time (no date) and are left out of the replay.
+    pub undated_invoices_left_out: u64,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct AmountAtRisk {
+    pub label: &'static str,
+    pub confidence: f64,
+    pub suppliers_in_alarm: u64,
+    /// Total paid to suppliers in alarm (all their invoices).
+    pub paid_to_suppliers_in_alarm: Amount,
+    /// Sum over alarmed suppliers of the estimated evenly spread (plausibly fabricated) amount.
+    pub plausibly_fabricated: f64,
+    pub plausibly_fabricated_low: f64,
+    pub plausibly_fabricated_high: f64,
+    pub method: &'static str,
+}
+
+#[derive(Clone, Debug, Serialize)]
+pub struct WatchReport {
+    pub confidence: f64,
+    pub arl_years: f64,
+    pub alternatives: usize,
+    pub method: Vec<&'static str>,
+    pub notes: Vec<String>,
+    pub suppliers_watched: u64,
+    pub suppliers_in_alarm: u64,
+    /// Alarmed suppliers first (earliest alarm first), then by closeness to an alarm line.
+    pub suppliers: Vec<SupplierWatch>,
+    pub replay: Option<Replay>,
+    pub amount_at_risk: AmountAtRisk,
+    pub caution: &'static str,
+}
+
+pub const CAUTION: &str = "An alarm is a reason to look, not proof of wrongdoing. Do not accuse a supplier on digit evidence alone; follow professional auditing standards, local law and counsel.";
+
+const AT_RISK_LABEL: &str = "estimate, not a finding";
+const AT_RISK_METHOD: &str = "per alarmed supplier, maximum-likelihood share of a mixture of Benford and an even spread over the supplier's own range of amounts since the estimated start of the deviation, with a profile-likelihood interval at the chosen confidence; amount = sum of amounts weighted by the probability each came from the even spread";
+
+const METHOD: [&str; 3] = [
+    "since the start: average of 60 likelihood-ratio test martingales (Benford vs. a share of evenly spread amounts); alarm when it reaches 1/(1 - confidence) — by Ville's inequality an honest supplier ever reaches it with probability at most 1 - confidence",
+    "since a change: average of 60 Shiryaev-Roberts statistics over the same alternatives (an e-detector); alarm at c = run-length years x the supplier's invoices per year, which guarantees an average run length of at least c invoices on honest data",
+    "each supplier's invoices are read in date order, ties by file order; first-two digits read exactly from the amounts",
+];
+
+fn days_opt(d: i32) -> Option<String> {
+    if d == NO_DATE {
+        None
+    } else {
+        Some(format_date(d))
+    }
+}
+
+/// Invoice indices grouped per supplier (counting sort: each group in file order).
+fn group(ledger: &Ledger) -> (Vec<u32>, Vec<usize>) {
+    let ns = ledger.suppliers.len();
+    let mut start = vec![0usize; ns + 1];
+    for inv in &ledger.invoices {
+        start[inv.supplier as usize + 1] += 1;
+    }
+    for s in 0..ns {
+        start[s + 1] += start[s];
+    }
+    let mut pos = start.clone();
+    let mut idx = vec![0u32; ledger.invoices.len()];
+    for (i, inv) in ledger.invoices.iter().enumerate() {
+        let p = &mut pos[inv.supplier as usize];
+        idx[*p] = i as u32;
+        *p += 1;
+    }
+    (idx, start)
+}
+
+/// Start of the deviation for a change alarm: replay a CUSUM `max(M, 1)·L` with the leading
+/// alternative up to the alarm and return the (0-based) position where its last run began.
+fn cusum_onset(fam: &Family, k: usize, bins: &[usize]) -> usize {
+    let mut m: f64 = 0.0;
+    let mut start = 0;
+    for (i, &b) in bins.iter().enumerate() {
+        if m < 1.0 {
+            m = 1.0;
+            start = i;
+        }
+        m *= fam.ratio(k, b);
+    }
+    start
+}
+
+/// Run both statistics over every supplier of the ledger.
+pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
+    let fam = Family::standard();
+    let alpha = (1.0 - opts.confidence).clamp(1e-12, 0.5);
+    let log_thr_start = (1.0 / alpha).ln();
+    let (idx, start) = group(ledger);
+    let mut mon = Monitor::new(&fam, log_thr_start, log_thr_start);
+    let mut suppliers = Vec::new();
+    let mut notes = Vec::new();
+    let mut replay_rows = Vec::new();
+    let mut undated_total = 0u64;
+    let mut order_buf: Vec<u32> = Vec::new();
+    let mut bins: Vec<u8> = Vec::new();
+    let traj_max = opts.trajectory_points.max(2);
+
+    for sid in 0..ledger.suppliers.len() {
+        let g = &idx[start[sid]..start[sid + 1]];
+        if g.is_empty() {
+            continue;
+        }
+        let inv = |i: u32| -> &Invoice { &ledger.invoices[i as usize] };
+        let undated = g.iter().filter(|&&i| inv(i).date == NO_DATE).count() as u64;
+        undated_total += undated;
+        order_buf.clear();
+        order_buf.extend_from_slice(g);
+        let by_date = undated == 0;
+        if by_date {
+            if !order_buf.windows(2).all(|w| (inv(w[0]).date, inv(w[0]).line) <= (inv(w[1]).date, inv(w[1]).line)) {
+                order_buf.sort_by_key(|&i| (inv(i).date, inv(i).line));
+            }
+        } else if !order_buf.windows(2).all(|w| inv(w[0]).line <= inv(w[1]).line) {
+            order_buf.sort_by_key(|&i| inv(i).line);
+        }
+        let n = order_buf.len() as u64;
+        let (first, last) = if by_date {
+            (inv(order_buf[0]).date, inv(order_buf[order_buf.len() - 1]).date)
+        } else {
+            (NO_DATE, NO_DATE)
+        };
+        let span_years = if by_date { ((last - first + 1) as f64 / 365.25).max(1.0) } else { 1.0 };
+        let per_year = n as f64 / span_years;
+        let c = (opts.arl_years * per_year).max(1.0 / alpha);
+        let log_c = c.ln();
+        mon.reset(log_thr_start, log_c);
+
+        let step = (n as usize).div_ceil(traj_max).max(1);
+        let mut traj = Vec::with_capacity(traj_max + 2);
+        let mut total = Amount::ZERO;
+        let mut alarm: Option<(usize, &'static str)> = None;
+        let mut ss_alarm: Option<usize> = None;
+        let mut sc_alarm: Option<usize> = None;
+        let mut paid_before = Amount::ZERO;
+        let mut lead_k = 0usize;
+        let mut asof_state: Option<(u64, Amount, f64, f64)> = None;
+        bins.clear();
+        for (pos, &i) in order_buf.iter().enumerate() {
+            let v = inv(i);
+            if let Some(a) = opts.as_of {
+                if by_date && asof_state.is_none() && v.date > a {
+                    asof_state = Some((pos as u64, total, mon.log_since_start(), mon.log_since_change()));
+                }
+            }
+            let b = first_two_bin(v.amount).unwrap_or(0);
+            bins.push(b as u8);
+            let cr = mon.push(b);
+            total = total.saturating_add(v.amount);
+            let mut is_alarm = false;
+            if cr.since_start && ss_alarm.is_none() {
+                ss_alarm = Some(pos);
+            }
+            if cr.since_change && sc_alarm.is_none() {
+                sc_alarm = Some(pos);
+            }
+            if alarm.is_none() && (cr.since_start || cr.since_change) {
+                alarm = Some((pos, if cr.since_start { "since_start" } else { "since_change" }));
+                paid_before = total;
+                lead_k = mon.leading_change_alternative();
+                is_alarm = true;
+            }
+            if is_alarm || (pos + 1) % step == 0 || pos + 1 == n as usize {
+                traj.push(TrajectoryPoint {
+                    invoice: pos as u64 + 1,
+                    date: days_opt(v.date),
+                    since_start_log: mon.log_since_start(),
+                    since_change_log: mon.log_since_change(),
+                    alarm: is_alarm,
+                });
+            }
+        }
+        if opts.as_of.is_some() && by_date && asof_state.is_none() {
+            asof_state = Some((n, total, mon.log_since_start(), mon.log_since_change()));
+        }
+        let evidence_now = Evidence {
+            since_start_log: mon.log_since_start(),
+            since_start_threshold_log: log_thr_start,
+            since_change_log: mon.log_since_change(),
+            since_change_threshold_log: log_c,
+            run_length_invoices: c,
+            run_length_years: c / per_year,
+        };
+        let date_at = |pos: usize| days_opt(inv(order_buf[pos]).date);
+        let estimate = alarm.map(|(apos, which)| {
+            let bins_usize: Vec<usize> = bins[..=apos].iter().map(|&b| b as usize).collect();
+            let from = if which == "since_start" { 0 } else { cusum_onset(&fam, lead_k, &bins_usize) };
+            let window = &order_buf[from..];
+            let mut counts = [0u64; BINS];
+            let (mut lo, mut hi, mut paid) = (i64::MAX, i64::MIN, Amount::ZERO);
+            for &i in window {
+                let a = inv(i).amount;
+                counts[first_two_bin(a).unwrap_or(0)] += 1;
+                lo = lo.min(a.0);
+                hi = hi.max(a.0);
+                paid = paid.saturating_add(a);
+            }
+            let u = even_spread_first_two(Amount(lo).to_f64(), Amount(hi).to_f64());
+            let share = fabricated_share(&counts, &u, opts.confidence);
+            let p = benford::first_two();
+            let expected = |lam: f64| -> f64 {
+                window
+                    .iter()
+                    .map(|&i| {
+                        let a = inv(i).amount;
+                        let b = first_two_bin(a).unwrap_or(0);
+                        let num = lam * u[b];
+                        let den = (1.0 - lam) * p[b] + num;
+                        if den > 0.0 { a.to_f64() * num / den } else { 0.0 }
+                    })
+                    .sum()
+            };
+            FabricatedEstimate {
+                window_from_invoice: from as u64 + 1,
+                window_from_date: date_at(from),
+                window_invoices: window.len() as u64,
+                window_paid: paid,
+                even_spread_low: Amount(lo),
+                even_spread_high: Amount(hi),
+                amount: expected(share.mle),
+                amount_low: expected(share.low),
+                amount_high: expected(share.high),
+                share,
+            }
+        });
+        let name = ledger.suppliers[sid].name.clone();
+        if let (Some(a), Some((pos_cut, paid_so_far, ls, lc))) = (opts.as_of, asof_state) {
+            if let Some((apos, which)) = alarm {
+                if (apos as u64) < pos_cut {
+                    let _ = a;
+                    replay_rows.push(ReplaySupplier {
+                        id: sid as u32,
+                        name: name.clone(),
+                        alarm_date: date_at(apos),
+                        alarm_evidence: Some(which),
+                        invoices_so_far: pos_cut,
+                        paid_so_far,
+                        paid_since_alarm: Amount(paid_so_far.0 - paid_before.0),
+                        evidence: Evidence { since_start_log: ls, since_change_log: lc, ..evidence_now.clone() },
+                    });
+                }
+            }
+        }
+        suppliers.push(SupplierWatch {
+            id: sid as u32,
+            name,
+            invoices: n,
+            amount_total: total,
+            first_date: days_opt(first),
+            last_date: days_opt(last),
+            order: if by_date { "date" } else { "file order" },
+            undated_invoices: undated,
+            invoices_per_year: per_year,
+            in_alarm: alarm.is_some(),
+            alarm_date: alarm.and_then(|(p, _)| date_at(p)),
+            alarm_invoice: alarm.map(|(p, _)| p as u64 + 1),
+            alarm_line: alarm.map(|(p, _)| inv(order_buf[p]).line),
+            alarm_evidence: alarm.map(|(_, w)| w),
+            since_start_alarm_date: ss_alarm.and_then(date_at),
+            since_change_alarm_date: sc_alarm.and_then(date_at),
+            invoices_before_alarm: alarm.map(|(p, _)| p as u64 + 1),
+            paid_before_alarm: alarm.map(|_| paid_before),
+            invoices_after_alarm: alarm.map(|(p, _)| n - p as u64 - 1),
+            paid_after_alarm: alarm.map(|_| Amount(total.0 - paid_before.0)),
+            evidence: evidence_now,
+            trajectory: traj,
+            estimate,
+        });
+    }
+    if undated_total > 0 {
+        notes.push(format!(
+            "{undated_total} invoices have no date: suppliers with undated invoices are read in file order only, get no alarm date, and are left out of the replay; their run length assumes the file covers one year"
+        ));
+    }
+    let closeness = |s: &SupplierWatch| {
+        (s.evidence.since_start_log - s.evidence.since_start_threshold_log)
+            .max(s.evidence.since_change_log - s.evidence.since_change_threshold_log)
+    };
+    suppliers.sort_by(|a, b| {
+        b.in_alarm
+            .cmp(&a.in_alarm)
+            .then_with(|| match (a.in_alarm, b.in_alarm) {
+                (true, true) => (a.alarm_date.is_none(), &a.alarm_date).cmp(&(b.alarm_date.is_none(), &b.alarm_date)),
+                _ => closeness(b).partial_cmp(&closeness(a)).unwrap_or(std::cmp::Ordering::Equal),
+            })
+            .then(a.name.cmp(&b.name))
+    });
+    let alarmed: Vec<&SupplierWatch> = suppliers.iter().filter(|s| s.in_alarm).collect();
+    let amount_at_risk = AmountAtRisk {
+        label: AT_RISK_LABEL,
+        confidence: opts.confidence,
+        suppliers_in_alarm: alarmed.len() as u64,
+        paid_to_suppliers_in_alarm: alarmed.iter().fold(Amount::ZERO, |t, s| t.saturating_add(s.amount_total)),
+        plausibly_fabricated: alarmed.iter().filter_map(|s| s.estimate.as_ref()).map(|e| e.amount).sum(),
+        plausibly_fabricated_low: alarmed.iter().filter_map(|s| s.estimate.as_ref()).map(|e| e.amount_low).sum(),
+        plausibly_fabricated_high: alarmed.iter().filter_map(|s| s.estimate.as_ref()).map(|e| e.amount_high).sum(),
+        method: AT_RISK_METHOD,
+    };
+    let suppliers_in_alarm = alarmed.len() as u64;
+    let replay = opts.as_of.map(|a| {
+        replay_rows.sort_by(|x, y| x.alarm_date.cmp(&y.alarm_date).then(x.name.cmp(&y.name)));
+        Replay {
+            as_of: format_date(a),
+            paid_to_suppliers_in_alarm: replay_rows.iter().fold(Amount::ZERO, |t, s| t.saturating_add(s.paid_so_far)),
+            suppliers_in_alarm: replay_rows,
+            undated_invoices_left_out: undated_total,
+        }
+    });
+    WatchReport {
+        confidence: opts.confidence,
+        arl_years: opts.arl_years,
+        alternatives: fam.len(),
+        method: METHOD.to_vec(),
+        notes,
+        suppliers_watched: suppliers.len() as u64,
+        suppliers_in_alarm,
+        suppliers,
+        replay,
+        amount_at_risk,
+        caution: CAUTION,
+    }
+}
+
+/// Readable summary for the terminal, ending with the caution.
+pub fn render_text(rep: &WatchReport) -> String {
+    use std::fmt::Write;
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "suppliers watched {}  in alarm {}  (since-start alarm at {:.0} % confidence; change detector run length >= {} years of each supplier's invoices)",
+        rep.suppliers_watched,
+        rep.suppliers_in_alarm,
+        rep.confidence * 100.0,
+        rep.arl_years
+    );
+    for n in &rep.notes {
+        let _ = writeln!(s, "note: {n}");
+    }
+    let _ = writeln!(s);
+    let _ = writeln!(
+        s,
+        "{:<30} {:>8} {:>11} {:>12} {:>15} {:>15} {:>13} {:>13}",
+        "supplier", "invoices", "alarm date", "evidence", "paid before", "paid after", "ln E / line", "ln R / line"
+    );
+    const MAX_ROWS: usize = 60;
+    for sp in rep.suppliers.iter().take(MAX_ROWS) {
+        let name: String = sp.name.chars().take(30).collect();
+        let date = match (&sp.alarm_date, sp.alarm_invoice) {
+            (Some(d), _) => d.clone(),
+            (None, Some(k)) => format!("invoice {k}"),
+            (None, None) => "-".into(),
+        };
+        let which = match sp.alarm_evidence {
+            Some("since_start") => "since start",
+            Some("since_change") => "since change",
+            _ => "-",
+        };
+        let amt = |a: Option<Amount>| a.map_or("-".to_string(), |a| a.to_string());
+        let e = &sp.evidence;
+        let _ = writeln!(
+            s,
+            "{:<30} {:>8} {:>11} {:>12} {:>15} {:>15} {:>6.1}/{:<6.1} {:>6.1}/{:<6.1}",
+            name,
+            sp.invoices,
+            date,
+            which,
+            amt(sp.paid_before_alarm),
+            amt(sp.paid_after_alarm),
+            e.since_start_log,
+            e.since_start_threshold_log,
+            e.since_change_log,
+            e.since_change_threshold_log
+        );
+    }
+    if rep.suppliers.len() > MAX_ROWS {
+        let _ = writeln!(s, "... {} more suppliers, none in alarm (see --format json)", rep.suppliers.len() - MAX_ROWS);
+    }
+    if let Some(r) = &rep.replay {
+        let _ = writeln!(s, "\nas of {}: {} suppliers in alarm, paid to them so far {}", r.as_of, r.suppliers_in_alarm.len(), r.paid_to_suppliers_in_alarm);
+        for x in &r.suppliers_in_alarm {
+            let _ = writeln!(
+                s,
+                "  {:<30} alarm {} ({}), paid so far {}, of which since the alarm {}",
+                x.name.chars().take(30).collect::<String>(),
+                x.alarm_date.as_deref().unwrap_or("-"),
+                x.alarm_evidence.unwrap_or("-"),
+                x.paid_so_far,
+                x.paid_since_alarm
+            );
+        }
+        if r.undated_invoices_left_out > 0 {
+            let _ = writeln!(s, "  ({} undated invoices left out of the replay)", r.undated_invoices_left_out);
+        }
+    }
+    let a = &rep.amount_at_risk;
+    let _ = writeln!(
+        s,
+        "\namount at risk ({}): paid to {} suppliers in alarm {}; plausibly fabricated about {:.2} ({:.2} to {:.2} at {:.0} %)",
+        a.label,
+        a.suppliers_in_alarm,
+        a.paid_to_suppliers_in_alarm,
+        a.plausibly_fabricated,
+        a.plausibly_fabricated_low,
+        a.plausibly_fabricated_high,
+        a.confidence * 100.0
+    );
+    let _ = writeln!(s, "\n{}", rep.caution);
+    s
+}
