@@ -82,6 +82,49 @@
     if (n >= 1 && n <= views.length) location.hash = '#' + views[n - 1];
   });
 
+  // ---------- settings (localStorage; never the ledger) ----------
+  const SETTINGS_KEY = 'digitdrift.settings.v1';
+  const settingFields = { confidence: 'set-confidence', correction: 'set-correction', seed: 'set-seed', sims: 'set-sims', power: 'set-power', fabricated_share: 'set-share', min_amount: 'set-min', limits: 'set-limits' };
+  function loadSettings() {
+    let saved = {};
+    try { saved = JSON.parse(localStorage.getItem(SETTINGS_KEY) || '{}'); } catch (e) { saved = {}; }
+    for (const [k, id] of Object.entries(settingFields)) if (saved[k] !== undefined) $(id).value = saved[k];
+  }
+  function readSettings() {
+    const v = (id) => $(id).value.trim();
+    const out = {};
+    for (const [k, id] of Object.entries(settingFields)) out[k] = v(id);
+    try { localStorage.setItem(SETTINGS_KEY, JSON.stringify(out)); } catch (e) { /* storage may be off for file:// */ }
+    return out;
+  }
+  function screenSettings() {
+    const s = readSettings();
+    return { confidence: Number(s.confidence), correction: s.correction, seed: Number(s.seed) || 0, sims: Number(s.sims) || 10000,
+      power: Number(s.power) || 0.8, fabricated_share: Number(s.fabricated_share) || 0.3,
+      limits: s.limits.split(/[;\s]+/).filter(Boolean) };
+  }
+  function intakeOptions() {
+    const s = readSettings();
+    return Object.assign({ min_amount: s.min_amount || '10' }, state.mapping || {});
+  }
+  loadSettings();
+  $('forget').addEventListener('click', () => {
+    try { localStorage.clear(); } catch (e) { /* nothing stored */ }
+    for (const id of Object.values(settingFields)) { const f = $(id); f.value = f.defaultValue !== undefined && f.tagName === 'INPUT' ? f.defaultValue : f.querySelector('option[selected]').value; }
+    state.mapping = null;
+    $('settings-note').textContent = 'Settings forgotten. Nothing of this page is left in the browser\u2019s storage.';
+  });
+  $('rescreen').addEventListener('click', async () => {
+    if (!state.report) { $('settings-note').textContent = 'Open a ledger first.'; return; }
+    $('settings-note').textContent = 'Screening…';
+    const rep = await call('rescreen', { settings: screenSettings() });
+    state.report = rep;
+    $('supplier-body').dataset.id = '';
+    renderSupplierTable();
+    $('settings-note').textContent = 'Screened again.';
+    location.hash = '#suppliers';
+  });
+
   // ---------- opening a ledger ----------
   function onProgress(m) {
     const pct = m.total ? Math.round(100 * m.done / m.total) : 0;
@@ -103,7 +146,7 @@
     onProgress({ done: 0, total: 1, rows: 0 });
     try {
       await chartsReady;
-      const res = await call('open', demo ? { demo } : { file });
+      const res = await call('open', Object.assign(demo ? { demo } : { file }, { options: intakeOptions(), settings: screenSettings() }));
       state.fileName = res.name;
       if (!res.intake.ok) { message(res.intake.message, 'error'); return; }
       state.intake = res.intake;

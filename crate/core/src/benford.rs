@@ -2,8 +2,10 @@
 //! P(first k significant digits = d) = log10(1 + 1/d) for d in [10^(k-1), 10^k).
 
 /// P(first significant digits = d) for any leading-digit block d >= 1.
+/// Uses the pure-Rust `libm` so the value is bit-identical native and in wasm (the platform
+/// log10 of glibc and of the wasm runtime can differ in the last bit).
 pub fn p_leading(d: u32) -> f64 {
-    (1.0 + 1.0 / d as f64).log10()
+    libm::log10(1.0 + 1.0 / d as f64)
 }
 
 /// First digit 1..=9: index 0 is digit 1.

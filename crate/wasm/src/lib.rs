@@ -183,6 +183,14 @@ impl Session {
 struct JsScreenSettings {
     tests: Option<String>,
     limits: Vec<String>,
+    confidence: Option<f64>,
+    seed: Option<f64>,
+    sims: Option<u32>,
+    power: Option<f64>,
+    fabricated_share: Option<f64>,
+    correction: Option<String>,
+    deviation_model: Option<String>,
+    calibrate: Option<bool>,
 }
 
 fn screen_options(v: JsValue) -> Result<report::ScreenOptions, JsValue> {
@@ -199,6 +207,36 @@ fn screen_options(v: JsValue) -> Result<report::ScreenOptions, JsValue> {
         let a = digitdrift_core::intake::parse_amount_simple(l).ok_or_else(|| err(format!("approval limit: cannot read '{l}'")))?;
         o.battery.approval_limits.push(Amount(a.0.abs()));
     }
+    use digitdrift_core::calibrate::{Correction, DeviationModel};
+    let mut c = digitdrift_core::calibrate::CalibrationOptions::default();
+    if let Some(v) = s.confidence {
+        if !(v > 0.0 && v < 1.0) {
+            return Err(err("confidence must be between 0 and 1"));
+        }
+        c.confidence = v;
+    }
+    if let Some(v) = s.seed {
+        c.seed = v.max(0.0) as u64;
+    }
+    if let Some(v) = s.sims {
+        c.sims = v.max(100);
+    }
+    if let Some(v) = s.power {
+        c.power = v.clamp(0.05, 0.999);
+    }
+    if let Some(v) = s.fabricated_share {
+        c.fabricated_share = v.clamp(0.01, 1.0);
+    }
+    c.correction = match s.correction.as_deref() {
+        Some("bonferroni") => Correction::Bonferroni,
+        Some("none") => Correction::None,
+        _ => Correction::Fdr,
+    };
+    c.deviation_model = match s.deviation_model.as_deref() {
+        Some("observed") => DeviationModel::ObservedProfile,
+        _ => DeviationModel::EvenSpread,
+    };
+    o.calibration = if s.calibrate == Some(false) { None } else { Some(c) };
     Ok(o)
 }
 

@@ -1,0 +1,43 @@
+// Same seed, same numbers on every platform: the page (wasm in Chromium) and the native CLI must
+// give identical calibrated p-values and verdicts for the embedded demo ledger. Also checks the
+// size-aware overview chart and the supplier file view are drawn.
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { execFileSync } from 'node:child_process';
+import { resolve } from 'node:path';
+import { existsSync } from 'node:fs';
+import { launch, openPage, networkRequests, drawnPixels, root, screenshot } from './browser.mjs';
+
+const demo = process.env.DEMO || resolve(root, 'demo-files', 'heathervale-vet-ledger.csv');
+const cli = process.env.DIGITDRIFT_BIN || resolve(root, 'target', 'release', 'digitdrift');
+
+let browser;
+before(async () => { browser = await launch(); });
+after(async () => { await browser?.close(); });
+
+test('page (wasm) and CLI (native) agree exactly on calibrated results', { skip: !existsSync(cli) && 'release CLI not built' }, async () => {
+  const native = JSON.parse(execFileSync(cli, ['screen', demo, '--format', 'json'], { maxBuffer: 1 << 30 }).toString());
+  const { page, requests, errors } = await openPage(browser);
+  await page.click('#demo');
+  await page.waitForSelector('body[data-loaded="yes"]', { timeout: 180_000 });
+  const web = await page.evaluate(() => window.digitdrift.report.suppliers.map((s) => ({ name: s.name, invoices: s.invoices, verdict: s.verdict, mc: s.first_two.mc_p_value, crit: s.first_two.mad_critical, mad: s.first_two.mad, adj: s.calibration.adjusted_p_value, needed: s.invoices_needed })));
+  const nat = native.suppliers.map((s) => ({ name: s.name, invoices: s.invoices, verdict: s.verdict, mc: s.first_two.mc_p_value, crit: s.first_two.mad_critical, mad: s.first_two.mad, adj: s.calibration.adjusted_p_value, needed: s.invoices_needed }));
+  assert.equal(web.length, nat.length);
+  assert.deepEqual(web, nat);
+  assert.deepEqual(await page.evaluate(() => window.digitdrift.report.rows), native.rows);
+  // The overview chart and the verdict column.
+  await page.waitForSelector('#chart-overview[data-drawn="yes"]');
+  assert.ok(await drawnPixels(page, '#chart-overview') > 5000);
+  const verdicts = await page.$$eval('#supplier-table tbody td[class*="v-"]', (t) => t.map((x) => x.textContent));
+  assert.ok(verdicts.length === nat.length && verdicts.every((v) => ['stands out', 'in line', 'too few to tell'].includes(v)), verdicts.join(','));
+  // Supplier file of the top-ranked supplier: every digit chart drawn, verdict in words.
+  await page.click('#open-file');
+  for (const id of ['first_digit', 'second_digit', 'first_two', 'first_three', 'last_two', 'second_order']) {
+    await page.waitForSelector(`#chart-${id}[data-drawn="yes"]`, { timeout: 30_000 });
+    assert.ok(await drawnPixels(page, `#chart-${id}`) > 3000, id);
+  }
+  assert.match(await page.$eval('#verdict-words', (e) => e.textContent), /invoices/);
+  await screenshot(page, 'supplier-file');
+  assert.deepEqual(networkRequests(requests), []);
+  assert.deepEqual(errors, []);
+});
