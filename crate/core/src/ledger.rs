@@ -51,6 +51,9 @@ pub enum ExclusionReason {
     TotalsLine,
     RepeatedHeader,
     UnparseableDate,
+    /// More non-empty cells than the header has: usually an unquoted delimiter inside a
+    /// value (e.g. a decimal comma in a comma-separated file), so no cell can be trusted.
+    TooManyCells,
 }
 
 impl ExclusionReason {
@@ -67,6 +70,7 @@ impl ExclusionReason {
             ExclusionReason::TotalsLine => "totals or subtotal line",
             ExclusionReason::RepeatedHeader => "repeated header line",
             ExclusionReason::UnparseableDate => "date not readable",
+            ExclusionReason::TooManyCells => "row has more cells than the header (unquoted delimiter inside a value?)",
         }
     }
 }

@@ -1,13 +1,42 @@
-//! Intake: bytes -> [`Ledger`]. Streaming (`Intake::feed` chunk by chunk, `finish`), with every
-//! data row either analysed or excluded with a counted reason.
+//! Intake: bytes -> [`Ledger`]. Streaming: [`Intake::feed`] chunk by chunk, then
+//! [`Intake::finish`]. Every data row is either analysed or excluded with a counted reason.
 //!
-//! NOTE: first slice — comma-delimited UTF-8, point decimals. The full sniffing/amount/date
-//! work lives in the submodules as it lands (issue "ledger intake").
+//! Flow: the first 64 KiB (or the whole file if shorter) are held back and sniffed
+//! ([`sniff`]): documents dropped by mistake, encoding, delimiter, header row (title or blank
+//! lines above it are a preamble and not counted as rows), column roles ([`columns`]), the
+//! decimal convention of the amount column ([`amount`]) and the day/month order of the date
+//! column ([`date`]). From then on chunks are decoded and split into records ([`scan`]) as they
+//! arrive; only an unfinished record is kept between chunks.
+//!
+//! Decisions documented here:
+//! - Negative amounts are credit notes (stored as their absolute value in
+//!   `Ledger::credit_notes`, counted under `credit_note`) when their absolute value is at least
+//!   the minimum; smaller ones are counted under `below_minimum` like small invoices, so both
+//!   populations are screened above the same minimum.
+//! - A date cell that is present but unreadable does not exclude the row (the digit tests do
+//!   not need dates): the invoice is kept without a date and a warning counts such rows.
+//! - If the decimal convention cannot be told from the first 64 KiB, rows whose amounts read
+//!   differently under the two conventions are held back until a later row decides it; if no
+//!   row ever does, `finish` returns [`IntakeError::AmbiguousDecimal`]. The same for day/month
+//!   order ([`IntakeError::AmbiguousDateOrder`]).
+
+pub mod amount;
+pub mod columns;
+pub mod date;
+pub mod scan;
+pub mod sniff;
+
+pub use amount::{parse_amount, trim_cell, Hint};
+pub use date::{civil_from_days, days_from_civil, format_date, parse_date, DateCell};
 
 use crate::amount::Amount;
 use crate::ledger::{fnv1a, supplier_key, ExclusionReason, Invoice, Ledger, Supplier, NO_DATE};
+use columns::Role;
+use scan::{Record, Scan, Scanner};
 use serde::Serialize;
+use sniff::{Enc, SNIFF_LEN};
 use std::collections::HashMap;
+use std::hash::{BuildHasherDefault, Hasher};
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
@@ -51,7 +80,8 @@ impl Default for IntakeOptions {
     }
 }
 
-#[derive(Clone, Debug, Serialize)]
+/// 0-based column indices.
+#[derive(Clone, Debug, Serialize, PartialEq, Eq)]
 pub struct ColumnMapping {
     pub supplier: usize,
     pub amount: usize,
@@ -63,7 +93,7 @@ pub struct ColumnMapping {
 pub struct IntakeInfo {
     pub encoding: String,
     pub delimiter: char,
-    /// 1-based line of the header row.
+    /// 1-based line of the header row (0: the file has no header row).
     pub header_line: u64,
     pub columns: Vec<String>,
     pub mapping: ColumnMapping,
@@ -93,6 +123,10 @@ pub enum IntakeError {
     AmbiguousDecimal { column: String, examples: Vec<String> },
     AmbiguousDateOrder { column: String, examples: Vec<String> },
     Cancelled,
+    /// A record longer than [`MAX_RECORD`] bytes: almost always a quote that is never closed.
+    RecordTooLong { line: u64 },
+    /// Two roles were given the same column.
+    SameColumn { column: String },
 }
 
 impl std::fmt::Display for IntakeError {
@@ -109,37 +143,321 @@ impl std::fmt::Display for IntakeError {
             IntakeError::AmbiguousDecimal { column, examples } => write!(f, "column '{column}' could use either a decimal comma or a decimal point (e.g. {}): choose one (--decimal comma|point)", examples.join(", ")),
             IntakeError::AmbiguousDateOrder { column, examples } => write!(f, "dates in column '{column}' could be day-first or month-first (e.g. {}): choose one (--date-order dmy|mdy|ymd)", examples.join(", ")),
             IntakeError::Cancelled => write!(f, "cancelled"),
+            IntakeError::RecordTooLong { line } => write!(f, "the row starting at line {line} never ends (more than 1 MiB): probably a quote (\") that is never closed"),
+            IntakeError::SameColumn { column } => write!(f, "column '{column}' was chosen for two different roles"),
         }
     }
 }
 impl std::error::Error for IntakeError {}
 
+/// Longest record accepted (bytes of decoded text).
+pub const MAX_RECORD: usize = 1 << 20;
+/// Data rows shown by [`preview`].
+pub const PREVIEW_ROWS: usize = 20;
+
+/// An undecided convention, with example cells, for the page to ask about.
+#[derive(Clone, Debug, Serialize, PartialEq)]
+pub struct Ambiguity {
+    pub column: String,
+    pub examples: Vec<String>,
+}
+
+/// One data row of the preview, raw and as it would be read.
+#[derive(Clone, Debug, Serialize)]
+pub struct PreviewRow {
+    pub line: u64,
+    pub cells: Vec<String>,
+    pub supplier: Option<String>,
+    /// Exact decimal text (e.g. "-1234.50"); None when unreadable or ambiguous.
+    pub amount: Option<String>,
+    /// When the decimal convention is undecided: the readings [point, comma].
+    pub amount_readings: Vec<String>,
+    /// ISO date; None when no date column, empty, unreadable or ambiguous.
+    pub date: Option<String>,
+    /// When day/month order is undecided: the readings [day-first, month-first].
+    pub date_readings: Vec<String>,
+    pub excluded: Option<ExclusionReason>,
+    pub exclusion: Option<&'static str>,
+}
+
+/// What the mapping step of the page shows.
+#[derive(Clone, Debug, Serialize)]
+pub struct Preview {
+    pub encoding: String,
+    pub delimiter: char,
+    pub header_line: u64,
+    pub header: Vec<String>,
+    pub columns: Vec<String>,
+    pub mapping: ColumnMapping,
+    /// None: not decided (see `decimal_ambiguous`) or no separators seen yet.
+    pub decimal: Option<DecimalConvention>,
+    pub decimal_ambiguous: Option<Ambiguity>,
+    pub date_order: Option<DateOrder>,
+    pub date_order_ambiguous: Option<Ambiguity>,
+    pub rows: Vec<PreviewRow>,
+    pub warnings: Vec<String>,
+}
+
+/// Preview of the first rows for the mapping step. Pass the first 64 KiB of the file (a
+/// shorter `head` is taken to be the whole file). Unlike [`read_all`], an undecided decimal
+/// convention or date order is not an error: it is flagged with examples.
+pub fn preview(head: &[u8], opts: &IntakeOptions) -> Result<Preview, IntakeError> {
+    let eof = head.len() < SNIFF_LEN;
+    let mut run = Run::start(head, eof, opts, true)?;
+    let s = &run.setup;
+    let decimal_ambiguous = if run.conv.is_none() && !run.amb_dec.is_empty() {
+        Some(Ambiguity { column: s.columns[s.mapping.amount].clone(), examples: run.amb_dec.clone() })
+    } else {
+        None
+    };
+    let date_order_ambiguous = match s.mapping.date {
+        Some(c) if run.order.is_none() && !run.amb_date.is_empty() => {
+            Some(Ambiguity { column: s.columns[c].clone(), examples: run.amb_date.clone() })
+        }
+        _ => None,
+    };
+    let warnings = run.warnings();
+    let s = &run.setup;
+    Ok(Preview {
+        encoding: s.enc.name().to_string(),
+        delimiter: s.delim as char,
+        header_line: s.header_line,
+        header: s.header.clone(),
+        columns: s.columns.clone(),
+        mapping: s.mapping.clone(),
+        decimal: run.conv,
+        decimal_ambiguous,
+        date_order: run.reported_order(),
+        date_order_ambiguous,
+        rows: run.preview.take().unwrap_or_default(),
+        warnings,
+    })
+}
+
+/// Whole-file intake (the streaming path with one chunk).
+pub fn read_all(bytes: &[u8], opts: &IntakeOptions) -> Result<IntakeResult, IntakeError> {
+    let mut it = Intake::new(opts.clone());
+    it.feed(bytes)?;
+    it.finish()
+}
+
+/// The general amount parser on text (the cell decides its own convention; `1,234` is read
+/// with the comma as thousands grouping). Used for `--min-amount`.
+pub fn parse_amount_simple(s: &str) -> Option<Amount> {
+    amount::parse_amount_str(s)
+}
+
+enum State {
+    Head(Vec<u8>),
+    Run(Box<Run>),
+    Failed(IntakeError),
+}
+
 /// Streaming intake. Feed chunks of the file in order, then `finish`.
 pub struct Intake {
     opts: IntakeOptions,
-    buf: Vec<u8>,
     bytes_fed: u64,
+    state: State,
 }
 
 impl Intake {
     pub fn new(opts: IntakeOptions) -> Intake {
-        Intake { opts, buf: Vec::new(), bytes_fed: 0 }
+        Intake { opts, bytes_fed: 0, state: State::Head(Vec::new()) }
     }
+
+    /// Feed the next chunk. Chunks may split characters, quoted fields or line breaks anywhere.
+    /// Errors found while sniffing (not a CSV, no amount column, ...) are returned as soon as
+    /// the first 64 KiB are in, and again on every later call.
     pub fn feed(&mut self, chunk: &[u8]) -> Result<(), IntakeError> {
         self.bytes_fed += chunk.len() as u64;
-        self.buf.extend_from_slice(chunk);
-        Ok(())
+        let r = match &mut self.state {
+            State::Failed(e) => return Err(e.clone()),
+            State::Head(raw) => {
+                raw.extend_from_slice(chunk);
+                if raw.len() >= SNIFF_LEN {
+                    let raw = std::mem::take(raw);
+                    Run::start(&raw, false, &self.opts, false).map(|r| {
+                        self.state = State::Run(Box::new(r));
+                    })
+                } else {
+                    Ok(())
+                }
+            }
+            State::Run(run) => run.push(chunk, false),
+        };
+        if let Err(e) = &r {
+            self.state = State::Failed(e.clone());
+        }
+        r
     }
+
     pub fn bytes_fed(&self) -> u64 {
         self.bytes_fed
     }
-    /// Data rows counted so far (read = analysed + excluded).
+
+    /// Data rows counted so far (analysed + excluded, plus rows held back while the decimal
+    /// convention is undecided). 0 until the first 64 KiB are in.
     pub fn rows_so_far(&self) -> u64 {
-        0
+        match &self.state {
+            State::Run(r) => r.ledger.accounting.read + r.deferred.len() as u64,
+            _ => 0,
+        }
     }
+
     pub fn finish(self) -> Result<IntakeResult, IntakeError> {
-        read_all(&self.buf, &self.opts)
+        let run = match self.state {
+            State::Failed(e) => return Err(e),
+            State::Head(raw) => Box::new(Run::start(&raw, true, &self.opts, false)?),
+            State::Run(mut run) => {
+                run.push(&[], true)?;
+                run
+            }
+        };
+        run.finish()
     }
+}
+
+/// What the head of the file decided.
+struct Setup {
+    enc: Enc,
+    delim: u8,
+    header_line: u64,
+    header: Vec<String>,
+    columns: Vec<String>,
+    mapping: ColumnMapping,
+    /// Cells a row needs to reach every mapped column.
+    need: usize,
+    /// Cells of the header (or of the widest common row): more non-empty cells is an error.
+    width: usize,
+    header_amount: Vec<u8>,
+    header_supplier: Vec<u8>,
+    body_start: usize,
+    body_line: u64,
+    warnings: Vec<String>,
+}
+
+/// A small fast hasher for the raw-spelling map (the multiply-rotate hash used by rustc,
+/// "FxHash"; not DoS-resistant, fine for one user's own file).
+#[derive(Default)]
+struct FxHasher(u64);
+impl Hasher for FxHasher {
+    #[inline]
+    fn write(&mut self, bytes: &[u8]) {
+        let mut h = self.0;
+        let mut c = bytes.chunks_exact(8);
+        for w in &mut c {
+            h = (h.rotate_left(5) ^ u64::from_le_bytes(w.try_into().unwrap())).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
+        }
+        for &b in c.remainder() {
+            h = (h.rotate_left(5) ^ b as u64).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
+        }
+        self.0 = h;
+    }
+    #[inline]
+    fn write_usize(&mut self, i: usize) {
+        self.0 = (self.0.rotate_left(5) ^ i as u64).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
+    }
+    fn finish(&self) -> u64 {
+        self.0
+    }
+}
+type FxMap<K, V> = HashMap<K, V, BuildHasherDefault<FxHasher>>;
+
+struct Run {
+    setup: Setup,
+    scanner: Scanner,
+    decoder: Option<encoding_rs::Decoder>,
+    work: Vec<u8>,
+    pos: usize,
+    line: u64,
+    rec: Record,
+    min_amount: Amount,
+    conv: Option<DecimalConvention>,
+    /// Day/month order for `a/b/y` cells, once known (Dmy or Mdy).
+    order: Option<DateOrder>,
+    saw_iso: bool,
+    ledger: Ledger,
+    raw_map: FxMap<Box<[u8]>, u32>,
+    key_map: HashMap<String, u32>,
+    last_raw: Vec<u8>,
+    last_id: u32,
+    /// Rows whose amount is ambiguous while the convention is undecided (thousands reading,
+    /// signed).
+    deferred: Vec<Invoice>,
+    /// (line, month-first reading) of rows whose date was read day-first provisionally.
+    date_alts: Vec<(u32, i32)>,
+    amb_dec: Vec<String>,
+    amb_date: Vec<String>,
+    run_sum: i128,
+    run_rows: u64,
+    grand_sum: i128,
+    bad_dates: u64,
+    recoded_names: u64,
+    decimal_votes: (u64, u64),
+    total_prefixes: Vec<[u8; 3]>,
+    preview: Option<Vec<PreviewRow>>,
+}
+
+fn decode_name(raw: &[u8], recoded: &mut u64) -> String {
+    match std::str::from_utf8(raw) {
+        Ok(s) => s.to_string(),
+        Err(_) => {
+            // Not UTF-8 although the head of the file was: read this cell as Windows-1252
+            // (WHATWG Encoding Standard via encoding_rs).
+            *recoded += 1;
+            encoding_rs::WINDOWS_1252.decode_without_bom_handling(raw).0.into_owned()
+        }
+    }
+}
+
+fn cell_text(raw: &[u8]) -> String {
+    String::from_utf8_lossy(trim_cell(raw)).into_owned()
+}
+
+/// Hash of an invoice number's normalised form: fnv1a of `supplier_key(text)`, computed
+/// without allocating for ASCII text.
+fn invoice_hash(raw: &[u8]) -> u64 {
+    let t = trim_cell(raw);
+    if t.is_empty() {
+        return 0;
+    }
+    if t.is_ascii() {
+        let mut h: u64 = 0xcbf29ce484222325;
+        let mut pending_space = false;
+        let mut any = false;
+        for &b in t {
+            if b.is_ascii_whitespace() || b == 0x0B {
+                pending_space = any;
+                continue;
+            }
+            if pending_space {
+                h ^= b' ' as u64;
+                h = h.wrapping_mul(0x100000001b3);
+                pending_space = false;
+            }
+            h ^= b.to_ascii_lowercase() as u64;
+            h = h.wrapping_mul(0x100000001b3);
+            any = true;
+        }
+        h
+    } else {
+        fnv1a(supplier_key(&String::from_utf8_lossy(t)).as_bytes())
+    }
+}
+
+fn eq_fold(a: &[u8], b: &[u8]) -> bool {
+    a.len() == b.len() && a.eq_ignore_ascii_case(b)
+}
+
+/// Content statistics of one column over the sampled rows.
+#[derive(Default, Clone)]
+struct ColStats {
+    non_empty: usize,
+    amounts: usize,
+    with_sep: usize,
+    dates: usize,
+    text: usize,
+    distinct: usize,
 }
 
 fn find_col(given: &str, headers: &[String]) -> Result<usize, IntakeError> {
@@ -152,202 +470,702 @@ fn find_col(given: &str, headers: &[String]) -> Result<usize, IntakeError> {
     headers
         .iter()
         .position(|h| supplier_key(h) == g)
+        .or_else(|| {
+            let f = columns::fold(given);
+            headers.iter().position(|h| columns::fold(h) == f)
+        })
         .ok_or(IntakeError::UnknownColumn { given: given.to_string() })
 }
 
-fn guess_col(headers: &[String], words: &[&str]) -> Option<usize> {
-    headers.iter().position(|h| {
-        let k = supplier_key(h);
-        words.iter().any(|w| k.contains(w))
+fn analyse_head(text: &[u8], eof: bool, enc: Enc, opts: &IntakeOptions) -> Result<Setup, IntakeError> {
+    if text.iter().all(|b| b.is_ascii_whitespace()) {
+        return Err(IntakeError::Empty);
+    }
+    if sniff::looks_binary(text) {
+        return Err(IntakeError::Binary);
+    }
+    let (delim, mode_w) = sniff::detect_delimiter(text, eof);
+    if mode_w < 2 {
+        return Err(IntakeError::SingleColumn);
+    }
+    let recs = sniff::sample_records(text, delim, eof, 2000);
+    let Some(hi) = recs.iter().position(|r| sniff::width(&r.cells) >= mode_w) else {
+        return Err(IntakeError::SingleColumn);
+    };
+    let cand = &recs[hi];
+    let looks_numeric = |c: &str| {
+        let b = c.as_bytes();
+        !trim_cell(b).is_empty() && (parse_amount(b, None).is_some() || parse_date(b, None).is_some())
+    };
+    let keyword = cand.cells.iter().any(|c| {
+        let f = columns::fold(c);
+        [Role::Supplier, Role::Amount, Role::Date, Role::Invoice].iter().any(|&r| columns::score(&f, r) > 0)
+    });
+    let has_header = keyword || !cand.cells.iter().any(|c| looks_numeric(c));
+    let ncols = cand.cells.len().max(mode_w);
+    let (header, header_line, body_start, body_line, body) = if has_header {
+        let next_line = recs.get(hi + 1).map_or(cand.line + 1, |r| r.line);
+        (cand.cells.clone(), cand.line, cand.next, next_line, &recs[hi + 1..])
+    } else {
+        (Vec::new(), 0, cand.start, cand.line, &recs[hi..])
+    };
+    let columns: Vec<String> = (0..ncols)
+        .map(|i| {
+            let h = header.get(i).map(|s| s.trim().to_string()).unwrap_or_default();
+            if h.is_empty() { format!("column {}", i + 1) } else { h }
+        })
+        .collect();
+    // Content statistics over the body sample (rows as wide as the header).
+    let mut stats = vec![ColStats::default(); ncols];
+    let mut seen: Vec<std::collections::HashSet<String>> = vec![Default::default(); ncols];
+    for r in body.iter().take(1000) {
+        if sniff::width(&r.cells) < 2 || r.cells == header {
+            continue;
+        }
+        for (i, c) in r.cells.iter().enumerate().take(ncols) {
+            let b = trim_cell(c.as_bytes());
+            if b.is_empty() {
+                continue;
+            }
+            let st = &mut stats[i];
+            st.non_empty += 1;
+            let is_date = parse_date(b, None).is_some() && b.iter().any(|x| !x.is_ascii_digit());
+            let amt = parse_amount(b, None);
+            if is_date {
+                st.dates += 1;
+            } else if let Some((_, h)) = amt {
+                st.amounts += 1;
+                if h != Hint::Neutral {
+                    st.with_sep += 1;
+                }
+            } else {
+                st.text += 1;
+            }
+            if seen[i].len() < 5000 && seen[i].insert(supplier_key(c)) {
+                st.distinct += 1;
+            }
+        }
+    }
+    let frac = |a: usize, n: usize| if n == 0 { 0.0 } else { a as f64 / n as f64 };
+    let folded: Vec<String> = if has_header { columns.iter().map(|c| columns::fold(c)).collect() } else { vec![String::new(); ncols] };
+    let mut used: Vec<usize> = Vec::new();
+    let explicit = |g: &Option<String>| -> Result<Option<usize>, IntakeError> {
+        match g {
+            Some(g) => find_col(g, &columns).map(Some),
+            None => Ok(None),
+        }
+    };
+    let ex_amount = explicit(&opts.amount)?;
+    let ex_supplier = explicit(&opts.supplier)?;
+    let ex_date = explicit(&opts.date)?;
+    let ex_invoice = explicit(&opts.invoice)?;
+    for c in [ex_amount, ex_supplier, ex_date, ex_invoice].into_iter().flatten() {
+        if used.contains(&c) {
+            return Err(IntakeError::SameColumn { column: columns[c].clone() });
+        }
+        used.push(c);
+    }
+    let by_header = |role: Role, used: &[usize], ok: &dyn Fn(&ColStats) -> bool| -> Option<usize> {
+        let mut best: Option<(i32, usize)> = None;
+        for (i, f) in folded.iter().enumerate() {
+            if used.contains(&i) || !ok(&stats[i]) {
+                continue;
+            }
+            let s = columns::score(f, role);
+            if s > 0 && best.is_none_or(|(bs, _)| s > bs) {
+                best = Some((s, i));
+            }
+        }
+        best.map(|b| b.1)
+    };
+    // Amount.
+    let amount_ok = |s: &ColStats| s.non_empty == 0 || frac(s.amounts, s.non_empty) >= 0.5;
+    let amount = match ex_amount {
+        Some(c) => c,
+        None => {
+            let c = by_header(Role::Amount, &used, &amount_ok).or_else(|| {
+                let mut best: Option<((u64, u64), usize)> = None;
+                for (i, s) in stats.iter().enumerate() {
+                    if used.contains(&i) || s.non_empty == 0 || frac(s.amounts, s.non_empty) < 0.8 {
+                        continue;
+                    }
+                    let key = ((frac(s.with_sep, s.non_empty) * 1000.0) as u64, (frac(s.amounts, s.non_empty) * 1000.0) as u64);
+                    if best.is_none_or(|(bk, _)| key > bk) {
+                        best = Some((key, i));
+                    }
+                }
+                best.map(|b| b.1)
+            });
+            let c = c.ok_or(IntakeError::NoNumericColumn)?;
+            used.push(c);
+            c
+        }
+    };
+    let date = match ex_date {
+        Some(c) => Some(c),
+        None => {
+            let date_ok = |s: &ColStats| s.non_empty == 0 || frac(s.dates, s.non_empty) >= 0.5;
+            let c = by_header(Role::Date, &used, &date_ok).or_else(|| {
+                (0..ncols).find(|&i| !used.contains(&i) && stats[i].non_empty > 0 && frac(stats[i].dates, stats[i].non_empty) >= 0.8)
+            });
+            if let Some(c) = c {
+                used.push(c);
+            }
+            c
+        }
+    };
+    let supplier = match ex_supplier {
+        Some(c) => c,
+        None => {
+            let text_ok = |s: &ColStats| s.non_empty == 0 || frac(s.text, s.non_empty) >= 0.5;
+            let c = by_header(Role::Supplier, &used, &text_ok).or_else(|| {
+                let mut best: Option<(f64, usize)> = None;
+                for (i, s) in stats.iter().enumerate() {
+                    if used.contains(&i) || s.non_empty == 0 || frac(s.text, s.non_empty) < 0.8 {
+                        continue;
+                    }
+                    let r = frac(s.distinct, s.non_empty);
+                    if (r < 1.0 || s.non_empty == 1) && best.is_none_or(|(br, _)| r < br) {
+                        best = Some((r, i));
+                    }
+                }
+                best.map(|b| b.1)
+            });
+            let c = c.ok_or(IntakeError::NoSupplierColumn)?;
+            used.push(c);
+            c
+        }
+    };
+    let invoice = match ex_invoice {
+        Some(c) => Some(c),
+        None => by_header(Role::Invoice, &used, &|_| true),
+    };
+    let mapping = ColumnMapping { supplier, amount, date, invoice };
+    let need = [Some(supplier), Some(amount), date, invoice].into_iter().flatten().max().unwrap() + 1;
+    let mut warnings = Vec::new();
+    if !has_header {
+        warnings.push("no header row found: columns were chosen from their content".to_string());
+    }
+    Ok(Setup {
+        enc,
+        delim,
+        header_line,
+        header_amount: header.get(amount).map(|h| trim_cell(h.as_bytes()).to_vec()).unwrap_or_default(),
+        header_supplier: header.get(supplier).map(|h| trim_cell(h.as_bytes()).to_vec()).unwrap_or_default(),
+        header,
+        width: ncols,
+        columns,
+        mapping,
+        need,
+        body_start,
+        body_line,
+        warnings,
     })
 }
 
-/// Parse "1234.56" / "-1,234.56" (point decimal, comma thousands) exactly.
-pub fn parse_amount_simple(s: &str) -> Option<Amount> {
-    let t = s.trim();
-    let (neg, t) = match t.strip_prefix('-') {
-        Some(r) => (true, r),
-        None => (false, t),
-    };
-    let t: String = t.chars().filter(|&c| c != ',').collect();
-    let (int, frac) = match t.split_once('.') {
-        Some((a, b)) => (a, b),
-        None => (t.as_str(), ""),
-    };
-    if int.is_empty() && frac.is_empty() {
-        return None;
-    }
-    if !int.bytes().all(|b| b.is_ascii_digit()) || !frac.bytes().all(|b| b.is_ascii_digit()) {
-        return None;
-    }
-    let digits = format!("{int}{frac}");
-    let v: i64 = if digits.is_empty() { 0 } else { digits.parse().ok()? };
-    let a = Amount::from_scaled(v, frac.len() as u32)?;
-    Some(if neg { Amount(-a.0) } else { a })
-}
-
-/// Days since 1970-01-01 for a proleptic Gregorian date (Howard Hinnant's days_from_civil).
-pub fn days_from_civil(y: i32, m: u32, d: u32) -> i32 {
-    let y = if m <= 2 { y - 1 } else { y };
-    let era = if y >= 0 { y } else { y - 399 } / 400;
-    let yoe = (y - era * 400) as u32;
-    let mp = (m + 9) % 12;
-    let doy = (153 * mp + 2) / 5 + d - 1;
-    let doe = yoe * 365 + yoe / 4 - yoe / 100 + doy;
-    era * 146097 + doe as i32 - 719468
-}
-
-/// (year, month, day) for days since 1970-01-01.
-pub fn civil_from_days(z: i32) -> (i32, u32, u32) {
-    let z = z + 719468;
-    let era = if z >= 0 { z } else { z - 146096 } / 146097;
-    let doe = (z - era * 146097) as u32;
-    let yoe = (doe - doe / 1460 + doe / 36524 - doe / 146096) / 365;
-    let y = yoe as i32 + era * 400;
-    let doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
-    let mp = (5 * doy + 2) / 153;
-    let d = doy - (153 * mp + 2) / 5 + 1;
-    let m = if mp < 10 { mp + 3 } else { mp - 9 };
-    (if m <= 2 { y + 1 } else { y }, m, d)
-}
-
-/// ISO date text for days since epoch.
-pub fn format_date(days: i32) -> String {
-    if days == NO_DATE {
-        return String::new();
-    }
-    let (y, m, d) = civil_from_days(days);
-    format!("{y:04}-{m:02}-{d:02}")
-}
-
-fn parse_iso_date(s: &str) -> Option<i32> {
-    let s = s.trim();
-    let s = s.split([' ', 'T']).next()?;
-    let mut it = s.split('-');
-    let y: i32 = it.next()?.parse().ok()?;
-    let m: u32 = it.next()?.parse().ok()?;
-    let d: u32 = it.next()?.parse().ok()?;
-    if !(1..=12).contains(&m) || !(1..=31).contains(&d) {
-        return None;
-    }
-    Some(days_from_civil(y, m, d))
-}
-
-/// Whole-file intake (the streaming path ends here too).
-pub fn read_all(bytes: &[u8], opts: &IntakeOptions) -> Result<IntakeResult, IntakeError> {
-    let text = std::str::from_utf8(bytes.strip_prefix(b"\xEF\xBB\xBF").unwrap_or(bytes))
-        .map_err(|_| IntakeError::Binary)?;
-    if text.trim().is_empty() {
-        return Err(IntakeError::Empty);
-    }
-    let mut rdr = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .from_reader(text.as_bytes());
-    let mut records = rdr.records();
-    let header = match records.next() {
-        Some(Ok(r)) => r,
-        _ => return Err(IntakeError::Empty),
-    };
-    let headers: Vec<String> = header.iter().map(|s| s.trim().to_string()).collect();
-    if headers.len() < 2 {
-        return Err(IntakeError::SingleColumn);
-    }
-    let supplier = match &opts.supplier {
-        Some(g) => find_col(g, &headers)?,
-        None => guess_col(&headers, &["supplier", "vendor", "payee", "creditor"]).ok_or(IntakeError::NoSupplierColumn)?,
-    };
-    let amount = match &opts.amount {
-        Some(g) => find_col(g, &headers)?,
-        None => guess_col(&headers, &["amount", "total", "gross", "value"]).ok_or(IntakeError::NoNumericColumn)?,
-    };
-    let date = match &opts.date {
-        Some(g) => Some(find_col(g, &headers)?),
-        None => guess_col(&headers, &["date"]),
-    };
-    let invoice = match &opts.invoice {
-        Some(g) => Some(find_col(g, &headers)?),
-        None => guess_col(&headers, &["invoice", "document", "reference"]).filter(|&c| c != amount && Some(c) != date),
-    };
-    let mut ledger = Ledger::default();
-    let mut index: HashMap<String, u32> = HashMap::new();
-    let need = supplier.max(amount).max(date.unwrap_or(0)).max(invoice.unwrap_or(0)) + 1;
-    for rec in records {
-        let rec = match rec {
-            Ok(r) => r,
-            Err(_) => continue,
+impl Run {
+    fn start(raw: &[u8], eof: bool, opts: &IntakeOptions, preview: bool) -> Result<Run, IntakeError> {
+        let body = raw;
+        if body.is_empty() || body == b"\xEF\xBB\xBF" || body == [0xFF, 0xFE] || body == [0xFE, 0xFF] {
+            return Err(IntakeError::Empty);
+        }
+        if let Some(kind) = sniff::document_kind(raw) {
+            return Err(IntakeError::NotCsv { format: kind.to_string() });
+        }
+        let enc = sniff::detect_encoding(raw, eof);
+        let bom = enc.bom_len(raw);
+        let decoder = match enc {
+            Enc::Utf8 | Enc::Utf8Bom => None,
+            e => Some(e.encoding().new_decoder_without_bom_handling()),
         };
-        let line = rec.position().map_or(0, |p| p.line());
-        let acc = &mut ledger.accounting;
-        if rec.iter().all(|c| c.trim().is_empty()) {
-            acc.exclude(ExclusionReason::BlankRow, line);
-            continue;
+        let mut run = Run {
+            setup: Setup {
+                enc,
+                delim: b',',
+                header_line: 0,
+                header: vec![],
+                columns: vec![],
+                mapping: ColumnMapping { supplier: 0, amount: 0, date: None, invoice: None },
+                need: 0,
+                width: 0,
+                header_amount: vec![],
+                header_supplier: vec![],
+                body_start: 0,
+                body_line: 1,
+                warnings: vec![],
+            },
+            scanner: Scanner::new(b','),
+            decoder,
+            work: Vec::with_capacity(raw.len() + 1024),
+            pos: 0,
+            line: 1,
+            rec: Record::default(),
+            min_amount: Amount(opts.min_amount.0.abs()),
+            conv: opts.decimal,
+            order: match opts.date_order {
+                Some(DateOrder::Ymd) | None => None,
+                o => o,
+            },
+            saw_iso: false,
+            ledger: Ledger::default(),
+            raw_map: FxMap::default(),
+            key_map: HashMap::new(),
+            last_raw: Vec::new(),
+            last_id: u32::MAX,
+            deferred: Vec::new(),
+            date_alts: Vec::new(),
+            amb_dec: Vec::new(),
+            amb_date: Vec::new(),
+            run_sum: 0,
+            run_rows: 0,
+            grand_sum: 0,
+            bad_dates: 0,
+            recoded_names: 0,
+            decimal_votes: (0, 0),
+            total_prefixes: Vec::new(),
+            preview: if preview { Some(Vec::new()) } else { None },
+        };
+        run.decode(&raw[bom..], eof);
+        run.setup = analyse_head(&run.work, eof, enc, opts)?;
+        run.scanner = Scanner::new(run.setup.delim);
+        run.pos = run.setup.body_start;
+        run.line = run.setup.body_line;
+        run.total_prefixes = columns::total_prefixes();
+        if opts.decimal.is_none() {
+            run.sniff_conventions(eof);
         }
-        if rec.len() < need {
-            acc.exclude(ExclusionReason::RaggedRow, line);
-            continue;
+        run.process(eof)?;
+        Ok(run)
+    }
+
+    /// Decide the decimal convention (majority of the cells that tell) and the date order
+    /// from the rows in the head.
+    fn sniff_conventions(&mut self, eof: bool) {
+        let recs = sniff::sample_records(&self.work[self.pos..], self.setup.delim, eof, 5000);
+        let (mut point, mut comma) = (0u64, 0u64);
+        let (mut dmy, mut mdy) = (0u64, 0u64);
+        let a = self.setup.mapping.amount;
+        for r in &recs {
+            if let Some(c) = r.cells.get(a) {
+                match parse_amount(c.as_bytes(), None) {
+                    Some((_, Hint::Point)) => point += 1,
+                    Some((_, Hint::Comma)) => comma += 1,
+                    _ => {}
+                }
+            }
+            if let (Some(d), None) = (self.setup.mapping.date, self.order) {
+                if let Some(c) = r.cells.get(d) {
+                    match parse_date(c.as_bytes(), None) {
+                        Some(DateCell::Fixed { hint: Some(DateOrder::Dmy), .. }) => dmy += 1,
+                        Some(DateCell::Fixed { hint: Some(DateOrder::Mdy), .. }) => mdy += 1,
+                        _ => {}
+                    }
+                }
+            }
         }
-        let name = rec[supplier].trim();
+        if point + comma > 0 {
+            self.conv = Some(if comma > point { DecimalConvention::Comma } else { DecimalConvention::Point });
+            self.decimal_votes = (point, comma);
+        }
+        if self.order.is_none() && dmy + mdy > 0 {
+            self.order = Some(if mdy > dmy { DateOrder::Mdy } else { DateOrder::Dmy });
+            if dmy > 0 && mdy > 0 {
+                self.setup.warnings.push(format!("dates: {dmy} cells read only day-first, {mdy} only month-first; read as {}", if mdy > dmy { "month-first" } else { "day-first" }));
+            }
+        }
+    }
+
+    fn decode(&mut self, src: &[u8], last: bool) {
+        match &mut self.decoder {
+            None => self.work.extend_from_slice(src),
+            Some(d) => {
+                let mut src = src;
+                loop {
+                    let need = d.max_utf8_buffer_length(src.len()).unwrap_or(src.len() * 3 + 16).max(16);
+                    let old = self.work.len();
+                    self.work.resize(old + need, 0);
+                    let (res, read, written, _) = d.decode_to_utf8(src, &mut self.work[old..], last);
+                    self.work.truncate(old + written);
+                    src = &src[read..];
+                    if res == encoding_rs::CoderResult::InputEmpty {
+                        break;
+                    }
+                }
+            }
+        }
+    }
+
+    fn push(&mut self, chunk: &[u8], eof: bool) -> Result<(), IntakeError> {
+        self.decode(chunk, eof);
+        self.process(eof)
+    }
+
+    fn process(&mut self, eof: bool) -> Result<(), IntakeError> {
+        while self.pos < self.work.len() {
+            if let Some(p) = &self.preview {
+                if p.len() >= PREVIEW_ROWS {
+                    return Ok(());
+                }
+            }
+            let mut rec = std::mem::take(&mut self.rec);
+            let r = self.scanner.scan(&self.work, self.pos, eof, &mut rec);
+            match r {
+                Scan::Done { next, lines } => {
+                    let line = self.line;
+                    let outcome = self.handle(&rec, line);
+                    if self.preview.is_some() {
+                        self.preview_row(&rec, line, outcome);
+                    }
+                    self.rec = rec;
+                    self.line += lines;
+                    self.pos = next;
+                }
+                Scan::More => {
+                    self.rec = rec;
+                    if self.work.len() - self.pos > MAX_RECORD {
+                        return Err(IntakeError::RecordTooLong { line: self.line });
+                    }
+                    break;
+                }
+            }
+        }
+        if self.pos > 0 {
+            self.work.drain(..self.pos);
+            self.pos = 0;
+        }
+        Ok(())
+    }
+
+    fn is_totals_word(&self, rec: &Record) -> bool {
+        let m = &self.setup.mapping;
+        let Some(first) = rec.fields().map(trim_cell).find(|c| !c.is_empty()) else { return false };
+        if first.len() < 3 || first.len() > 60 {
+            return false;
+        }
+        let p = [first[0].to_ascii_lowercase(), first[1].to_ascii_lowercase(), first[2].to_ascii_lowercase()];
+        if !self.total_prefixes.contains(&p) {
+            return false;
+        }
+        let f = columns::fold(&String::from_utf8_lossy(first));
+        if columns::is_total_word(&f, true) {
+            return true;
+        }
+        // "Total 2024", "Summe Januar": only when the row has no date and no invoice number.
+        let empty = |c: Option<usize>| c.is_some_and(|c| rec.len() <= c || trim_cell(rec.field(c)).is_empty());
+        (m.date.is_some() || m.invoice.is_some())
+            && (m.date.is_none() || empty(m.date))
+            && (m.invoice.is_none() || empty(m.invoice))
+            && columns::is_total_word(&f, false)
+    }
+
+    /// Count one data row. Returns the exclusion reason, None when analysed (or held back).
+    fn handle(&mut self, rec: &Record, line: u64) -> Option<ExclusionReason> {
+        let m = self.setup.mapping.clone();
+        let width = rec.width();
+        macro_rules! exclude {
+            ($r:expr) => {{
+                self.ledger.accounting.exclude($r, line);
+                return Some($r);
+            }};
+        }
+        if width == 0 {
+            exclude!(ExclusionReason::BlankRow);
+        }
+        if self.setup.header_line > 0
+            && rec.len() > m.amount.max(m.supplier)
+            && eq_fold(trim_cell(rec.field(m.amount)), &self.setup.header_amount)
+            && eq_fold(trim_cell(rec.field(m.supplier)), &self.setup.header_supplier)
+        {
+            exclude!(ExclusionReason::RepeatedHeader);
+        }
+        if self.is_totals_word(rec) {
+            self.run_sum = 0;
+            self.run_rows = 0;
+            exclude!(ExclusionReason::TotalsLine);
+        }
+        if width > self.setup.width {
+            exclude!(ExclusionReason::TooManyCells);
+        }
+        if rec.len() < self.setup.need {
+            exclude!(ExclusionReason::RaggedRow);
+        }
+        let name = trim_cell(rec.field(m.supplier));
+        let raw_amount = trim_cell(rec.field(m.amount));
         if name.is_empty() {
-            acc.exclude(ExclusionReason::MissingSupplier, line);
-            continue;
+            // A line with no supplier whose amount is the sum of the rows above is a total.
+            if let Some((a, _)) = parse_amount(raw_amount, self.conv) {
+                let v = a.0 as i128;
+                if v != 0 && self.run_rows > 0 && (v == self.run_sum || v == self.grand_sum) {
+                    self.run_sum = 0;
+                    self.run_rows = 0;
+                    exclude!(ExclusionReason::TotalsLine);
+                }
+            }
+            exclude!(ExclusionReason::MissingSupplier);
         }
-        let raw = rec[amount].trim();
-        if raw.is_empty() {
-            acc.exclude(ExclusionReason::BlankAmount, line);
-            continue;
+        if raw_amount.is_empty() {
+            exclude!(ExclusionReason::BlankAmount);
         }
-        let Some(a) = parse_amount_simple(raw) else {
-            acc.exclude(ExclusionReason::UnparseableAmount, line);
-            continue;
+        let Some((a, hint)) = parse_amount(raw_amount, self.conv) else {
+            exclude!(ExclusionReason::UnparseableAmount);
         };
-        if a.is_zero() {
-            acc.exclude(ExclusionReason::ZeroAmount, line);
-            continue;
+        let mut held = false;
+        if self.conv.is_none() {
+            match hint {
+                Hint::Point => self.set_decimal(DecimalConvention::Point),
+                Hint::Comma => self.set_decimal(DecimalConvention::Comma),
+                Hint::Ambiguous => {
+                    held = true;
+                    if self.amb_dec.len() < 3 {
+                        self.amb_dec.push(String::from_utf8_lossy(raw_amount).into_owned());
+                    }
+                }
+                Hint::Neutral => {}
+            }
         }
-        let d = date.and_then(|c| parse_iso_date(&rec[c])).unwrap_or(NO_DATE);
-        let key = supplier_key(name);
-        let sid = *index.entry(key.clone()).or_insert_with(|| {
-            ledger.suppliers.push(Supplier { name: name.to_string(), key });
-            (ledger.suppliers.len() - 1) as u32
-        });
+        if a.is_zero() {
+            exclude!(ExclusionReason::ZeroAmount);
+        }
+        self.run_sum += a.0 as i128;
+        self.grand_sum += a.0 as i128;
+        self.run_rows += 1;
+        // Date.
+        let mut date = NO_DATE;
+        if let Some(dc) = m.date {
+            let cell = trim_cell(rec.field(dc));
+            if !cell.is_empty() {
+                match parse_date(cell, self.order) {
+                    Some(DateCell::Fixed { days, hint }) => {
+                        date = days;
+                        match hint {
+                            Some(DateOrder::Ymd) => self.saw_iso = true,
+                            Some(o) if self.order.is_none() => self.set_order(o),
+                            _ => {}
+                        }
+                    }
+                    Some(DateCell::Ambiguous { dmy, mdy }) => {
+                        date = dmy;
+                        self.date_alts.push((line as u32, mdy));
+                        if self.amb_date.len() < 3 {
+                            self.amb_date.push(String::from_utf8_lossy(cell).into_owned());
+                        }
+                    }
+                    None => self.bad_dates += 1,
+                }
+            }
+        }
+        // Supplier id: exact previous spelling, then exact spelling seen before, then key.
+        let id = if name == &self.last_raw[..] && self.last_id != u32::MAX {
+            self.last_id
+        } else {
+            let id = match self.raw_map.get(name) {
+                Some(&id) => id,
+                None => {
+                    let display = decode_name(name, &mut self.recoded_names);
+                    let key = supplier_key(&display);
+                    let id = match self.key_map.get(&key) {
+                        Some(&id) => id,
+                        None => {
+                            let id = self.ledger.suppliers.len() as u32;
+                            self.key_map.insert(key.clone(), id);
+                            self.ledger.suppliers.push(Supplier { name: display.trim().to_string(), key });
+                            id
+                        }
+                    };
+                    self.raw_map.insert(name.into(), id);
+                    id
+                }
+            };
+            self.last_raw.clear();
+            self.last_raw.extend_from_slice(name);
+            self.last_id = id;
+            id
+        };
         let inv = Invoice {
-            amount: a.abs(),
-            invoice_hash: invoice.map_or(0, |c| {
-                let t = rec[c].trim();
-                if t.is_empty() { 0 } else { fnv1a(supplier_key(t).as_bytes()) }
-            }),
-            supplier: sid,
-            date: d,
+            amount: a,
+            invoice_hash: m.invoice.map_or(0, |c| invoice_hash(rec.field(c))),
+            supplier: id,
+            date,
             line: line as u32,
             flags: 0,
         };
+        if held {
+            self.deferred.push(inv);
+            return None;
+        }
+        self.classify(inv)
+    }
+
+    /// Invoice (signed amount) -> invoices, credit notes or below minimum.
+    fn classify(&mut self, mut inv: Invoice) -> Option<ExclusionReason> {
+        let acc = &mut self.ledger.accounting;
+        let line = inv.line as u64;
+        let a = inv.amount;
+        if a.abs() < self.min_amount {
+            acc.exclude(ExclusionReason::BelowMinimum, line);
+            return Some(ExclusionReason::BelowMinimum);
+        }
+        inv.amount = a.abs();
         if a.is_negative() {
             acc.exclude(ExclusionReason::CreditNote, line);
-            ledger.credit_notes.push(inv);
-            continue;
-        }
-        if a < opts.min_amount {
-            acc.exclude(ExclusionReason::BelowMinimum, line);
-            continue;
+            self.ledger.credit_notes.push(inv);
+            return Some(ExclusionReason::CreditNote);
         }
         acc.analyse();
-        ledger.invoices.push(inv);
+        self.ledger.invoices.push(inv);
+        None
     }
-    if ledger.accounting.read == 0 {
-        return Err(IntakeError::HeaderOnly);
+
+    fn set_decimal(&mut self, c: DecimalConvention) {
+        self.conv = Some(c);
+        let held = std::mem::take(&mut self.deferred);
+        if held.is_empty() {
+            return;
+        }
+        for mut inv in held {
+            if c == DecimalConvention::Comma {
+                // Thousands reading x*10000 units -> decimal reading x/1000: exact.
+                inv.amount = Amount(inv.amount.0 / 1000);
+            }
+            self.classify(inv);
+        }
+        self.ledger.invoices.sort_by_key(|i| i.line);
+        self.ledger.credit_notes.sort_by_key(|i| i.line);
+        for e in &mut self.ledger.accounting.exclusions {
+            e.rows.sort_unstable();
+        }
     }
-    Ok(IntakeResult {
-        ledger,
-        info: IntakeInfo {
-            encoding: "UTF-8".into(),
-            delimiter: ',',
-            header_line: 1,
-            columns: headers,
-            mapping: ColumnMapping { supplier, amount, date, invoice },
-            decimal: DecimalConvention::Point,
-            date_order: date.map(|_| DateOrder::Ymd),
-            warnings: vec![],
-        },
-    })
+
+    fn set_order(&mut self, o: DateOrder) {
+        self.order = Some(o);
+        let alts = std::mem::take(&mut self.date_alts);
+        if o != DateOrder::Mdy || alts.is_empty() {
+            return;
+        }
+        let map: HashMap<u32, i32> = alts.into_iter().collect();
+        for inv in self.ledger.invoices.iter_mut().chain(self.ledger.credit_notes.iter_mut()).chain(self.deferred.iter_mut()) {
+            if let Some(&d) = map.get(&inv.line) {
+                inv.date = d;
+            }
+        }
+    }
+
+    fn reported_order(&self) -> Option<DateOrder> {
+        self.setup.mapping.date?;
+        match self.order {
+            Some(o) => Some(o),
+            None if self.date_alts.is_empty() && self.saw_iso => Some(DateOrder::Ymd),
+            None => None,
+        }
+    }
+
+    fn preview_row(&mut self, rec: &Record, line: u64, outcome: Option<ExclusionReason>) {
+        let m = &self.setup.mapping;
+        let cells: Vec<String> = rec.fields().map(|f| String::from_utf8_lossy(f).into_owned()).collect();
+        let get = |c: usize| if c < rec.len() { Some(trim_cell(rec.field(c))) } else { None };
+        let supplier = get(m.supplier).filter(|s| !s.is_empty()).map(cell_text);
+        let (mut amount, mut amount_readings) = (None, Vec::new());
+        if let Some(c) = get(m.amount) {
+            match parse_amount(c, self.conv) {
+                Some((_, Hint::Ambiguous)) if self.conv.is_none() => {
+                    for conv in [DecimalConvention::Point, DecimalConvention::Comma] {
+                        if let Some((a, _)) = parse_amount(c, Some(conv)) {
+                            amount_readings.push(a.to_string());
+                        }
+                    }
+                }
+                Some((a, _)) => amount = Some(a.to_string()),
+                None => {}
+            }
+        }
+        let (mut date, mut date_readings) = (None, Vec::new());
+        if let Some(c) = m.date.and_then(get) {
+            match parse_date(c, self.order) {
+                Some(DateCell::Fixed { days, .. }) => date = Some(format_date(days)),
+                Some(DateCell::Ambiguous { dmy, mdy }) => date_readings = vec![format_date(dmy), format_date(mdy)],
+                None => {}
+            }
+        }
+        let row = PreviewRow {
+            line,
+            cells,
+            supplier,
+            amount,
+            amount_readings,
+            date,
+            date_readings,
+            excluded: outcome,
+            exclusion: outcome.map(|r| r.describe()),
+        };
+        if let Some(p) = &mut self.preview {
+            p.push(row);
+        }
+    }
+
+    fn warnings(&self) -> Vec<String> {
+        let mut w = self.setup.warnings.clone();
+        let (p, c) = self.decimal_votes;
+        if p > 0 && c > 0 {
+            w.push(format!("amounts: {p} cells read only with a decimal point, {c} only with a decimal comma; read with a decimal {}", if c > p { "comma" } else { "point" }));
+        }
+        if self.bad_dates > 0 {
+            w.push(format!("{} rows have a date that could not be read; they are analysed without a date", self.bad_dates));
+        }
+        if self.recoded_names > 0 {
+            w.push(format!("{} supplier names were not valid UTF-8 and were read as Windows-1252", self.recoded_names));
+        }
+        w
+    }
+
+    fn finish(mut self: Box<Self>) -> Result<IntakeResult, IntakeError> {
+        let s = &self.setup;
+        if self.conv.is_none() && !self.deferred.is_empty() {
+            return Err(IntakeError::AmbiguousDecimal { column: s.columns[s.mapping.amount].clone(), examples: self.amb_dec.clone() });
+        }
+        if let Some(dc) = s.mapping.date {
+            if self.order.is_none() && !self.date_alts.is_empty() {
+                return Err(IntakeError::AmbiguousDateOrder { column: s.columns[dc].clone(), examples: self.amb_date.clone() });
+            }
+        }
+        let acc = &self.ledger.accounting;
+        if acc.read == acc.count_of(ExclusionReason::BlankRow) {
+            return Err(IntakeError::HeaderOnly);
+        }
+        debug_assert!(acc.is_consistent());
+        let warnings = self.warnings();
+        let date_order = self.reported_order();
+        let s = &self.setup;
+        let info = IntakeInfo {
+            encoding: s.enc.name().to_string(),
+            delimiter: s.delim as char,
+            header_line: s.header_line,
+            columns: s.columns.clone(),
+            mapping: s.mapping.clone(),
+            decimal: self.conv.unwrap_or(DecimalConvention::Point),
+            date_order,
+            warnings,
+        };
+        let ledger = std::mem::take(&mut self.ledger);
+        Ok(IntakeResult { ledger, info })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn epoch_days() {
+        // Unix epoch; 2000-03-01 is day 11017 (Hinnant's paper uses these as checks).
+        assert_eq!(days_from_civil(1970, 1, 1), 0);
+        assert_eq!(days_from_civil(2000, 3, 1), 11017);
+        assert_eq!(civil_from_days(11017), (2000, 3, 1));
+    }
+
+    #[test]
+    fn invoice_hash_matches_key_hash() {
+        for s in ["  INV-001 ", "a  b\tc", "Ünï 12", "x"] {
+            assert_eq!(invoice_hash(s.as_bytes()), fnv1a(supplier_key(s).as_bytes()), "{s}");
+        }
+    }
 }

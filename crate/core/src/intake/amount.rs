@@ -1,0 +1,328 @@
+//! Amount cells -> exact [`Amount`]s. Byte-level, no allocation, never f64.
+//!
+//! Accepted shapes (each rule's origin noted; where there is no published rule it is
+//! "common practice, no source"):
+//! - decimal point with comma grouping `1,234.56`, decimal comma with point grouping `1.234,56`
+//!   (the two conventions of CLDR number formats, e.g. en vs de locales);
+//! - grouping by space, no-break space U+00A0, narrow no-break space U+202F (CLDR fr / nb / sv
+//!   locales), thin space U+2009, apostrophe `'` or U+2019 (CLDR de-CH);
+//!   every group after the first must have exactly three digits (Western grouping; Indian
+//!   lakh grouping is not accepted);
+//! - currency symbols (`$ € £ ¥ ₹ ₩ ₽ ₺ ₪ ₫ ₱ ₦ ¤`, `kr`, `kr.`, `Fr.`, `zł`, `R$`, `Kč`, `Ft`, `lei`)
+//!   or a three-letter upper-case ISO 4217 code before or after the number;
+//! - negatives as `-x`, `−x` (U+2212), `(x)` (accounting brackets), `x-` (trailing minus of
+//!   mainframe and some ERP exports), `x CR` / `x DR` (credit negative, debit positive:
+//!   common practice of balance listings, no source; sign conventions differ by ledger side);
+//! - at most four decimals are kept exactly (more only when the extra digits are zeros).
+
+use super::DecimalConvention;
+use crate::amount::Amount;
+
+/// What a cell says about the decimal convention on its own.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub enum Hint {
+    /// No `.` or `,` in the number: reads the same under both conventions.
+    Neutral,
+    /// Only a decimal point reading is possible.
+    Point,
+    /// Only a decimal comma reading is possible.
+    Comma,
+    /// A single `.` or `,` followed by exactly three digits (`1,234`): thousands separator or
+    /// decimal separator. The value returned is the thousands reading; the decimal reading is
+    /// exactly 1/1000 of it.
+    Ambiguous,
+}
+
+/// Maximum separators recorded in one number (`1.234.567.890.123,45` has 5).
+const MAX_SEPS: usize = 8;
+
+#[inline]
+fn is_ws(b: u8) -> bool {
+    b == b' ' || b == b'\t'
+}
+
+/// Trim ASCII white space and the UTF-8 no-break / narrow no-break / thin spaces at both ends.
+#[inline]
+pub fn trim_cell(mut s: &[u8]) -> &[u8] {
+    loop {
+        match s {
+            [b, rest @ ..] if is_ws(*b) || *b == b'\r' || *b == b'\n' => s = rest,
+            [0xC2, 0xA0, rest @ ..] => s = rest,
+            [0xE2, 0x80, 0xAF | 0x89, rest @ ..] => s = rest,
+            _ => break,
+        }
+    }
+    loop {
+        match s {
+            [rest @ .., b] if is_ws(*b) || *b == b'\r' || *b == b'\n' => s = rest,
+            [rest @ .., 0xC2, 0xA0] => s = rest,
+            [rest @ .., 0xE2, 0x80, 0xAF | 0x89] => s = rest,
+            _ => break,
+        }
+    }
+    s
+}
+
+/// Length of a currency marker at the start of `s` (0 if none).
+fn currency_prefix(s: &[u8]) -> usize {
+    const SYMS: &[&[u8]] = &[
+        "R$".as_bytes(), "US$".as_bytes(), "A$".as_bytes(), "C$".as_bytes(), "$".as_bytes(),
+        "€".as_bytes(), "£".as_bytes(), "¥".as_bytes(), "₹".as_bytes(), "₩".as_bytes(),
+        "₽".as_bytes(), "₺".as_bytes(), "₪".as_bytes(), "₫".as_bytes(), "₱".as_bytes(),
+        "₦".as_bytes(), "¤".as_bytes(), "kr.".as_bytes(), "kr".as_bytes(), "Kr".as_bytes(),
+        "Fr.".as_bytes(), "fr.".as_bytes(), "zł".as_bytes(), "Kč".as_bytes(), "Ft".as_bytes(),
+        "lei".as_bytes(),
+    ];
+    for sym in SYMS {
+        if s.starts_with(sym) {
+            return sym.len();
+        }
+    }
+    // ISO 4217 alphabetic code: three upper-case letters.
+    if s.len() >= 3 && s[..3].iter().all(|b| b.is_ascii_uppercase()) && !s[..3].eq_ignore_ascii_case(b"CR") {
+        if s.len() == 3 || !s[3].is_ascii_alphabetic() {
+            return 3;
+        }
+    }
+    0
+}
+
+/// Length of a currency marker at the end of `s` (0 if none).
+fn currency_suffix(s: &[u8]) -> usize {
+    const SYMS: &[&[u8]] = &[
+        "€".as_bytes(), "$".as_bytes(), "£".as_bytes(), "¥".as_bytes(), "₹".as_bytes(),
+        "₽".as_bytes(), "₺".as_bytes(), "₪".as_bytes(), "₫".as_bytes(), "¤".as_bytes(),
+        "kr.".as_bytes(), "kr".as_bytes(), ",-".as_bytes(), "zł".as_bytes(), "Kč".as_bytes(),
+        "Ft".as_bytes(), "lei".as_bytes(), "Fr.".as_bytes(),
+    ];
+    for sym in SYMS {
+        if s.ends_with(sym) && *sym != b",-" {
+            return sym.len();
+        }
+    }
+    let n = s.len();
+    if n >= 3 && s[n - 3..].iter().all(|b| b.is_ascii_uppercase()) {
+        if n == 3 || !s[n - 4].is_ascii_alphabetic() {
+            return 3;
+        }
+    }
+    0
+}
+
+fn strip_ws_start(s: &[u8]) -> &[u8] {
+    trim_cell(s)
+}
+
+/// Parse one amount cell. `conv`: the column's decimal convention when known; `None` lets
+/// the cell decide (see [`Hint`]). Returns the amount and what the cell said about the
+/// convention, or `None` when the cell is not a readable amount. An empty cell is `None` too
+/// (callers check for blank first).
+pub fn parse_amount(cell: &[u8], conv: Option<DecimalConvention>) -> Option<(Amount, Hint)> {
+    let mut s = trim_cell(cell);
+    if s.is_empty() {
+        return None;
+    }
+    let mut neg = false;
+    // Accounting brackets.
+    if s[0] == b'(' && s[s.len() - 1] == b')' {
+        neg = true;
+        s = trim_cell(&s[1..s.len() - 1]);
+    }
+    // CR / DR markers at the end (or start).
+    if s.len() >= 2 {
+        let tail = &s[s.len() - 2..];
+        if tail.eq_ignore_ascii_case(b"CR") {
+            neg = !neg;
+            s = trim_cell(&s[..s.len() - 2]);
+        } else if tail.eq_ignore_ascii_case(b"DR") {
+            s = trim_cell(&s[..s.len() - 2]);
+        }
+    }
+    // Currency and signs may come in either order: "-€ 12", "€ -12", "12 € -"...
+    for _ in 0..2 {
+        let k = currency_prefix(s);
+        if k > 0 {
+            s = strip_ws_start(&s[k..]);
+        }
+        let k = currency_suffix(s);
+        if k > 0 {
+            s = trim_cell(&s[..s.len() - k]);
+        }
+        if let Some(r) = s.strip_prefix(b"-").or_else(|| s.strip_prefix("−".as_bytes())) {
+            neg = !neg;
+            s = strip_ws_start(r);
+        } else if let Some(r) = s.strip_prefix(b"+") {
+            s = strip_ws_start(r);
+        } else if let Some(r) = s.strip_suffix(b"-").or_else(|| s.strip_suffix("−".as_bytes())) {
+            neg = !neg;
+            s = trim_cell(r);
+        }
+    }
+    if s.is_empty() {
+        return None;
+    }
+    // Scan digits and separators. seps[k] = (kind, digits before it since previous sep).
+    // kind: b'.' b',' or b' ' (any space-like or apostrophe grouping).
+    let mut value: u64 = 0;
+    let mut ndigits = 0u32;
+    let mut seps = [(0u8, 0u32); MAX_SEPS];
+    let mut nseps = 0usize;
+    let mut run = 0u32; // digits since the last separator
+    let mut i = 0;
+    let n = s.len();
+    while i < n {
+        let b = s[i];
+        if b.is_ascii_digit() {
+            if ndigits > 0 || b != b'0' {
+                ndigits += 1;
+            }
+            if ndigits > 18 {
+                return None;
+            }
+            value = value * 10 + (b - b'0') as u64;
+            run += 1;
+            i += 1;
+            continue;
+        }
+        let (kind, len) = match b {
+            b'.' | b',' => (b, 1),
+            b' ' | b'\'' => (b' ', 1),
+            0xC2 if i + 1 < n && s[i + 1] == 0xA0 => (b' ', 2),
+            0xE2 if i + 2 < n && s[i + 1] == 0x80 && matches!(s[i + 2], 0xAF | 0x89 | 0x99) => (b' ', 3),
+            _ => return None,
+        };
+        if nseps == MAX_SEPS || (run == 0 && !(kind != b' ' && nseps == 0 && i == 0)) {
+            // Two separators in a row, or a grouping mark with no digit before it.
+            // (".5" / ",5" with no integer part is allowed.)
+            return None;
+        }
+        seps[nseps] = (kind, run);
+        nseps += 1;
+        run = 0;
+        i += len;
+    }
+    let trailing = run; // digits after the last separator
+    if nseps == 0 {
+        if trailing == 0 {
+            return None;
+        }
+        let a = Amount::from_scaled(value as i64, 0)?;
+        return Some((if neg { Amount(-a.0) } else { a }, Hint::Neutral));
+    }
+    let seps = &seps[..nseps];
+    let dots = seps.iter().filter(|s| s.0 == b'.').count();
+    let commas = seps.iter().filter(|s| s.0 == b',').count();
+    let spaces = nseps - dots - commas;
+    let last = seps[nseps - 1].0;
+    let hint = if dots > 0 && commas > 0 {
+        if last == b'.' { Hint::Point } else { Hint::Comma }
+    } else if dots + commas == 0 {
+        Hint::Neutral
+    } else if dots + commas > 1 {
+        // The repeated mark groups thousands; the other one would be the decimal.
+        if dots > 1 { Hint::Comma } else { Hint::Point }
+    } else {
+        // One mark. Thousands reading needs 1-3 digits before (not a lone 0), exactly 3
+        // after, and no other grouping in the number.
+        let before = if nseps >= 2 { seps[nseps - 2].1 } else { seps[0].1 };
+        let mark_is_last = last != b' ';
+        let lone_zero = value / 1000 == 0 && nseps == 1;
+        if mark_is_last && trailing == 3 && spaces == 0 && (1..=3).contains(&before) && !lone_zero {
+            Hint::Ambiguous
+        } else if dots == 1 {
+            Hint::Point
+        } else {
+            Hint::Comma
+        }
+    };
+    let dec = match (conv, hint) {
+        (Some(DecimalConvention::Point), _) => b'.',
+        (Some(DecimalConvention::Comma), _) => b',',
+        (None, Hint::Point) => b'.',
+        (None, Hint::Comma) => b',',
+        // Thousands reading: the mark present is a grouping mark.
+        (None, Hint::Ambiguous) => {
+            if dots == 1 { b',' } else { b'.' }
+        }
+        (None, Hint::Neutral) => b'.',
+    };
+    // Validate against the chosen decimal mark: at most one, last; every group after a
+    // grouping mark has exactly three digits; the first group 1-3 digits.
+    let mut frac_digits = 0u32;
+    let mut seen_dec = false;
+    for (k, &(kind, before)) in seps.iter().enumerate() {
+        let after = if k + 1 < nseps { seps[k + 1].1 } else { trailing };
+        if kind == dec {
+            if seen_dec || k + 1 != nseps {
+                return None;
+            }
+            seen_dec = true;
+            frac_digits = after;
+            if before == 0 && after == 0 {
+                return None;
+            }
+        } else {
+            // grouping mark
+            if k == 0 && !(1..=3).contains(&before) {
+                return None;
+            }
+            if after != 3 {
+                return None;
+            }
+        }
+    }
+    let _ = ndigits;
+    let a = Amount::from_scaled(i64::try_from(value).ok()?, frac_digits)?;
+    let a = if neg { Amount(-a.0) } else { a };
+    Some((a, hint))
+}
+
+/// General parser on text with the convention decided by the text itself; an ambiguous
+/// `1,234` is read with the separator as thousands grouping.
+pub fn parse_amount_str(s: &str) -> Option<Amount> {
+    parse_amount(s.as_bytes(), None).map(|(a, _)| a)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use DecimalConvention::*;
+
+    fn p(s: &str, c: Option<DecimalConvention>) -> Option<String> {
+        parse_amount(s.as_bytes(), c).map(|(a, _)| a.to_string())
+    }
+
+    #[test]
+    fn shapes() {
+        assert_eq!(p("1,234.56", None).as_deref(), Some("1234.56"));
+        assert_eq!(p("1.234,56", None).as_deref(), Some("1234.56"));
+        assert_eq!(p("1 234,56", None).as_deref(), Some("1234.56"));
+        assert_eq!(p("1\u{a0}234,56", None).as_deref(), Some("1234.56"));
+        assert_eq!(p("1\u{202f}234,56", None).as_deref(), Some("1234.56"));
+        assert_eq!(p("1'234.56", None).as_deref(), Some("1234.56"));
+        assert_eq!(p("CHF 1'234.56", None).as_deref(), Some("1234.56"));
+        assert_eq!(p("1.234,56 €", None).as_deref(), Some("1234.56"));
+        assert_eq!(p("-€1,234.56", None).as_deref(), Some("-1234.56"));
+        assert_eq!(p("(1,234.56)", None).as_deref(), Some("-1234.56"));
+        assert_eq!(p("1234.56-", None).as_deref(), Some("-1234.56"));
+        assert_eq!(p("1,234.56 CR", None).as_deref(), Some("-1234.56"));
+        assert_eq!(p("1,234.56 DR", None).as_deref(), Some("1234.56"));
+        assert_eq!(p("USD 99", None).as_deref(), Some("99.00"));
+        assert_eq!(p("12,5", None).as_deref(), Some("12.50"));
+        assert_eq!(p("0,125", None).as_deref(), Some("0.125"));
+        assert_eq!(p("1.234.567", None).as_deref(), Some("1234567.00"));
+        assert_eq!(p("1,234", Some(Comma)).as_deref(), Some("1.234"));
+        assert_eq!(p("1,234", Some(Point)).as_deref(), Some("1234.00"));
+        assert_eq!(parse_amount(b"1,234", None).unwrap().1, Hint::Ambiguous);
+        assert_eq!(parse_amount(b"1234,567", None).unwrap().1, Hint::Comma);
+        assert_eq!(p("1,5", Some(Point)), None);
+        assert_eq!(p("1.234,56", Some(Point)), None);
+        assert_eq!(p("12,34,567.00", None), None);
+        assert_eq!(p("abc", None), None);
+        assert_eq!(p("1.2E+05", None), None);
+        assert_eq!(p("", None), None);
+        assert_eq!(p("-", None), None);
+        assert_eq!(p("12.34567", None), None);
+        assert_eq!(p("12.34560", None).as_deref(), Some("12.3456"));
+    }
+}
