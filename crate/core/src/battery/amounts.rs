@@ -2,7 +2,7 @@
 //! duplicate invoices, clusters just below approval limits. Every item that lists invoices
 //! carries their indices into the population slice given to [`super::run`].
 
-use super::sort::{radix_sort, Keyed};
+use super::sort::{sort_pairs, Keyed};
 use super::BatteryOptions;
 use crate::amount::{Amount, SCALE};
 use crate::ledger::{Invoice, NO_DATE};
@@ -154,9 +154,13 @@ pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &Batt
     }
 
     // Most frequent exact amounts (ties: larger amount first).
+    let order = |a: &(usize, usize), b: &(usize, usize)| b.1.cmp(&a.1).then(sorted[b.0].key.cmp(&sorted[a.0].key));
     let mut top = runs.clone();
-    top.sort_by(|a, b| b.1.cmp(&a.1).then(sorted[b.0].key.cmp(&sorted[a.0].key)));
+    if top.len() > opts.top_amounts && opts.top_amounts > 0 {
+        top.select_nth_unstable_by(opts.top_amounts - 1, order);
+    }
     top.truncate(opts.top_amounts);
+    top.sort_by(order);
     let most_frequent = top
         .iter()
         .map(|&(s, l)| {
@@ -171,10 +175,25 @@ pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &Batt
         })
         .collect();
 
-    // Round amounts.
+    // One sequential pass: round amounts, dates and numbers for the duplicate checks.
     let (mut c00, mut b100, mut c100, mut b1000, mut c1000) = (0u64, 0u64, 0u64, 0u64, 0u64);
     let (mut l00, mut l100, mut l1000) = (Vec::new(), Vec::new(), Vec::new());
+    let mut undated = 0u64;
+    // (supplier, date) per invoice, read back for the members of equal-amount runs only.
+    let mut sd: Vec<u64> = Vec::with_capacity(invoices.len());
+    // A 32-bit mix of (supplier, number): equal pairs land in one run after sorting; the rare
+    // unequal pairs sharing a mix are told apart exactly inside the run.
+    let mut numbered: Vec<Keyed> = Vec::with_capacity(invoices.len());
     for (i, inv) in invoices.iter().enumerate() {
+        sd.push(((inv.supplier as u64) << 32) | (inv.date as u32 as u64));
+        if inv.date == NO_DATE {
+            undated += 1;
+        }
+        if inv.invoice_hash != 0 {
+            let h = (inv.invoice_hash ^ (inv.supplier as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15))
+                .wrapping_mul(0xD6E8_FEB8_6659_FD93);
+            numbered.push(Keyed { key: h >> 32, idx: i as u32 });
+        }
         let v = inv.amount.0.unsigned_abs();
         if v == 0 || v % SCALE as u64 != 0 {
             continue;
@@ -238,9 +257,10 @@ pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &Batt
     for &(s, l) in &runs {
         local.clear();
         for k in &sorted[s..s + l] {
-            let inv = invoices[k.idx as usize];
-            if inv.date != NO_DATE {
-                local.push((inv.supplier, inv.date, k.idx));
+            let x = sd[k.idx as usize];
+            let date = x as u32 as i32;
+            if date != NO_DATE {
+                local.push(((x >> 32) as u32, date, k.idx));
             }
         }
         local.sort_unstable();
@@ -267,18 +287,9 @@ pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &Batt
             a = b;
         }
     }
-    let undated = invoices.iter().filter(|i| i.date == NO_DATE).count() as u64;
-    let mut numbered: Vec<Keyed> = invoices
-        .iter()
-        .enumerate()
-        .filter(|(_, inv)| inv.invoice_hash != 0)
-        .map(|(i, inv)| Keyed {
-            key: inv.invoice_hash ^ (inv.supplier as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15),
-            idx: i as u32,
-        })
-        .collect();
+    drop(sd);
     let unnumbered = invoices.len() as u64 - numbered.len() as u64;
-    radix_sort(&mut numbered);
+    let numbered = sort_pairs(numbered);
     let mut local2: Vec<(u32, u64, u32)> = Vec::new();
     let mut i = 0;
     while i < numbered.len() {

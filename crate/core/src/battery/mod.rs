@@ -25,7 +25,7 @@ use crate::amount::{Amount, SCALE};
 use crate::benford;
 use crate::ledger::Invoice;
 use serde::Serialize;
-use sort::{radix_sort, Keyed};
+use sort::{sort_pairs, Keyed};
 use std::fmt;
 use std::str::FromStr;
 
@@ -261,16 +261,32 @@ fn uniform(k: usize) -> Vec<f64> {
     vec![1.0 / k as f64; k]
 }
 
-/// Amounts as sort keys (|amount| in amount units), zero amounts left out.
+/// Amounts as sort keys (|amount| in amount units), zero amounts left out, sorted by amount
+/// (ties in index order).
 pub(crate) fn sorted_amounts(invoices: &[&Invoice]) -> Vec<Keyed> {
-    let mut v: Vec<Keyed> = invoices
+    let n = invoices.len();
+    let max_key = invoices.iter().map(|inv| inv.amount.0.unsigned_abs()).max().unwrap_or(0);
+    let idx_bits = 64 - (n.max(1) as u64).leading_zeros();
+    if n >= 256 && (64 - max_key.leading_zeros()) + idx_bits <= 64 {
+        // Fast path: pack (amount, index) into one word straight from the invoices.
+        let mut w: Vec<u64> = Vec::with_capacity(n);
+        for (i, inv) in invoices.iter().enumerate() {
+            let v = inv.amount.0.unsigned_abs();
+            if v != 0 {
+                w.push((v << idx_bits) | i as u64);
+            }
+        }
+        sort::radix_sort_u64_from(&mut w, idx_bits);
+        let mask = (1u64 << idx_bits) - 1;
+        return w.iter().map(|&x| Keyed { key: x >> idx_bits, idx: (x & mask) as u32 }).collect();
+    }
+    let v: Vec<Keyed> = invoices
         .iter()
         .enumerate()
         .filter(|(_, inv)| inv.amount.0 != 0)
         .map(|(i, inv)| Keyed { key: inv.amount.0.unsigned_abs(), idx: i as u32 })
         .collect();
-    radix_sort(&mut v);
-    v
+    sort_pairs(v)
 }
 
 /// Run the selected tests over one population.

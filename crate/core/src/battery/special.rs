@@ -112,7 +112,9 @@ neighbouring amounts once sorted. Nigrini & Miller, 'Data diagnostics using seco
 Benford's Law', Auditing: A Journal of Practice & Theory 28(2), 2009 (from memory): for almost any \
 continuous data with enough values the differences come close to Benford's first-two proportions, \
 whether or not the data themselves follow Benford; rounded or repeated amounts show as spikes \
-(e.g. at 10, 20, ..., 90) and inserted or missing values as other irregularities.";
+(e.g. at 10, 20, ..., 90) and inserted or missing values as other irregularities. Amounts are held to \
+the cent, so where they are dense (neighbours a few cents apart, e.g. thousands of small invoices) the \
+differences are whole numbers of cents and spike at 10, 20, ..., 90 from that rounding alone.";
 
 #[derive(Clone, Debug, Serialize, PartialEq)]
 pub struct SecondOrder {
