@@ -72,6 +72,7 @@
     document.title = 'digitdrift — ' + $('view-' + view).dataset.title;
     if (view === 'suppliers') drawSelected();
     if (view === 'supplier') renderSupplierFile();
+    if (view === 'replay') renderReplay();
   }
   window.addEventListener('hashchange', () => show(location.hash.slice(1)));
   document.addEventListener('keydown', (e) => {
@@ -361,6 +362,76 @@
   }
   state.showInvoices = showInvoices;
   window.addEventListener('resize', () => drawSelected());
+
+  // ---------- replay: continuous monitoring over the ledger's dates ----------
+  async function renderReplay(force) {
+    const body = $('replay-body');
+    if (!state.report) { body.replaceChildren(el('p', { text: 'Open a ledger first.' })); return; }
+    if (body.dataset.ready === 'yes' && !force) return;
+    const dates = state.report.suppliers.map((s) => [s.first_date, s.last_date]).flat().filter(Boolean).sort();
+    const first = dates[0], last = dates[dates.length - 1];
+    const asOf = $('replay-date') ? $('replay-date').value : last;
+    const conf = Number($('set-confidence').value) || 0.95;
+    const w = await call('watch', { settings: { confidence: conf, as_of: asOf || last } });
+    state.watch = w;
+    const dateInput = el('input', { type: 'date', id: 'replay-date', min: first, max: last, value: asOf || last, 'aria-label': 'Replay as of this date' });
+    dateInput.addEventListener('change', () => renderReplay(true));
+    const r = w.replay;
+    const risk = w.amount_at_risk;
+    const table = el('table', { class: 'grid', id: 'watch-table' },
+      el('caption', { text: 'Every supplier, its invoices read in date order. An alarm is raised the first time its evidence crosses the line for the chosen confidence.' }),
+      el('thead', null, el('tr', null, ['Supplier', 'Invoices', 'Alarm date', 'Which evidence', 'Invoices before alarm', 'Paid before alarm', 'Paid after alarm', 'Evidence now (since start)', 'Alarm line'].map((h) => el('th', { text: h })))),
+      el('tbody', null, w.suppliers.map((s) => el('tr', { tabindex: 0, class: s.in_alarm ? 'alarm' : null, 'data-id': s.id, onclick: () => drawEvidence(s.id), onkeydown: (e) => { if (e.key === 'Enter') drawEvidence(s.id); } },
+        el('td', { text: s.name }), el('td', { class: 'num', text: fmtInt(s.invoices) }), el('td', { text: s.alarm_date || '—' }),
+        el('td', { text: s.alarm_evidence ? s.alarm_evidence.replace('_', ' ') : '—' }),
+        el('td', { class: 'num', text: s.invoices_before_alarm !== null && s.invoices_before_alarm !== undefined ? fmtInt(s.invoices_before_alarm) : '—' }),
+        el('td', { class: 'num', text: s.paid_before_alarm !== null && s.paid_before_alarm !== undefined ? fmtMoney(s.paid_before_alarm) : '—' }),
+        el('td', { class: 'num', text: s.paid_after_alarm !== null && s.paid_after_alarm !== undefined ? fmtMoney(s.paid_after_alarm) : '—' }),
+        el('td', { class: 'num', text: fmtEvidence(s.evidence.since_start_log) }),
+        el('td', { class: 'num', text: fmtEvidence(s.evidence.since_start_threshold_log) })))));
+    const canvas = el('canvas', { class: 'chart wide', id: 'chart-evidence', role: 'img', 'aria-label': 'Evidence over time for the selected supplier' });
+    body.replaceChildren(
+      el('p', { class: 'caution', text: w.caution }),
+      el('p', null, el('label', null, 'Replay as of ', dateInput), ` · confidence ${(100 * w.confidence).toFixed(1)} % · change detector: on honest data at most one false alarm per ${fmtInt(w.arl_years)} years of a supplier's own invoicing, on average.`),
+      r ? el('div', { class: 'summary', id: 'replay-summary' }, el('strong', { text: `As of ${r.as_of}: ${r.suppliers_in_alarm.length} supplier${r.suppliers_in_alarm.length === 1 ? '' : 's'} in alarm` }),
+        `, ${fmtMoney(r.paid_to_suppliers_in_alarm)} paid to them so far` + (r.suppliers_in_alarm.length ? ` (${r.suppliers_in_alarm.map((x) => x.name + ' since ' + x.alarm_date).join('; ')})` : '') + '.') : null,
+      el('div', { class: 'risk', id: 'amount-at-risk' }, el('h2', { text: 'Amount at risk (' + risk.label + ')' }),
+        el('p', { text: `${fmtInt(risk.suppliers_in_alarm)} suppliers in alarm were paid ${fmtMoney(risk.paid_to_suppliers_in_alarm)}; of that, plausibly fabricated: about ${fmtMoney(risk.plausibly_fabricated)} (interval ${fmtMoney(risk.plausibly_fabricated_low)} to ${fmtMoney(risk.plausibly_fabricated_high)}).` }),
+        el('p', { class: 'small', text: 'Method: ' + risk.method + '.' })),
+      canvas, el('div', { class: 'table-wrap' }, table),
+      el('details', null, el('summary', { text: 'How the evidence is computed' }), el('ul', null, w.method.map((m) => el('li', { text: m })), w.notes.map((m) => el('li', { text: m })))));
+    body.dataset.ready = 'yes';
+    const firstAlarm = w.suppliers.find((s) => s.in_alarm) || w.suppliers[0];
+    if (firstAlarm) drawEvidence(firstAlarm.id);
+  }
+  // Evidence as a number: plain when modest, as a power of ten when huge.
+  function fmtEvidence(lnE) {
+    const l10 = lnE / Math.LN10;
+    if (!isFinite(l10)) return l10 > 0 ? '∞' : '0';
+    if (Math.abs(l10) < 4) return Math.exp(lnE).toPrecision(3);
+    return '10^' + l10.toFixed(1);
+  }
+  function drawEvidence(id) {
+    const s = state.watch.suppliers.find((x) => x.id === id);
+    const c = $('chart-evidence');
+    if (!s || !c) return;
+    for (const tr of document.querySelectorAll('#watch-table tbody tr')) tr.classList.toggle('sel', Number(tr.dataset.id) === id);
+    const dpr = sizeCanvas(c);
+    const LN10 = Math.log(10);
+    const pts = s.trajectory.filter((p) => p.date);
+    const dayOf = (iso) => Date.UTC(+iso.slice(0, 4), +iso.slice(5, 7) - 1, +iso.slice(8, 10)) / 86400000;
+    const xs = pts.length ? pts : s.trajectory;
+    const xOf = (p) => pts.length ? dayOf(p.date) : p.invoice;
+    const v = [];
+    if (s.alarm_date && pts.length) v.push([dayOf(s.alarm_date), 'alarm ' + s.alarm_date]);
+    wasm_bindgen.drawScatter(c, { title: `${s.name}: evidence against Benford's law over time (log10)`, scale: dpr, as_line: true, x_dates: pts.length > 0,
+      x_label: pts.length ? 'invoice date' : 'invoice number', y_label: 'log10 evidence',
+      points: xs.map((p) => ({ x: xOf(p), y: p.since_start_log / LN10 })),
+      curves: [{ label: 'since a change (log10)', points: xs.map((p) => [xOf(p), p.since_change_log / LN10]), dashed: true }],
+      h_lines: [[s.evidence.since_start_threshold_log / LN10, 'alarm line (since start)'], [s.evidence.since_change_threshold_log / LN10, 'alarm line (since a change)']],
+      v_lines: v });
+    c.dataset.drawn = 'yes';
+  }
 
   // ---------- one supplier's file: every test, amount checks, the invoices behind them ----------
   const TESTS = [

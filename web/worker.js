@@ -50,6 +50,7 @@ const handlers = {
     return openLedger(id, file, file.name, options, settings);
   },
   async rescreen({ id, settings }) { post({ id, ok: true, value: session.screen(settings || {}) }); },
+  async watch({ id, settings }) { post({ id, ok: true, value: session.watch(settings || {}) }); },
   async detail({ id, supplier }) { post({ id, ok: true, value: session.supplierDetail(supplier) }); },
   async members({ id, supplier, test, bin }) { post({ id, ok: true, value: session.binMembers(supplier, test, bin) }); },
   async invoicesAt({ id, supplier, indices }) { post({ id, ok: true, value: session.invoicesAt(supplier, new Uint32Array(indices)) }); },

@@ -222,7 +222,13 @@ pub struct ScatterSpec {
 /// Points (or a line) with optional curves and reference lines; x may be log-scaled or dates.
 #[wasm_bindgen(js_name = drawScatter)]
 pub fn draw_scatter(canvas: HtmlCanvasElement, spec: JsValue) -> Result<JsValue, JsValue> {
-    let s: ScatterSpec = serde_wasm_bindgen::from_value(spec).map_err(js_err)?;
+    let mut s: ScatterSpec = serde_wasm_bindgen::from_value(spec).map_err(js_err)?;
+    // Non-finite values (an evidence of zero is -inf on a log scale) are left out of the picture.
+    s.points.retain(|p| p.x.is_finite() && p.y.is_finite());
+    for c in &mut s.curves {
+        c.points.retain(|p| p.0.is_finite() && p.1.is_finite());
+    }
+    s.h_lines.retain(|h| h.0.is_finite());
     let root = backend(canvas)?;
     let px = |v: f64| (v * s.scale).round() as i32;
     let tx = |x: f64| if s.log_x { x.max(1e-9).log10() } else { x };

@@ -132,6 +132,36 @@ impl Session {
         to_js(&s.ok_or_else(|| err("no such supplier"))?)
     }
 
+    /// Continuous monitoring replayed over the ledger: per supplier the alarm date, evidence
+    /// and amounts paid before/after it; the state as of `as_of` (ISO date, optional); the
+    /// amount at risk. `settings`: {confidence, as_of}.
+    pub fn watch(&self, settings: JsValue) -> Result<JsValue, JsValue> {
+        #[derive(Deserialize, Default)]
+        #[serde(default)]
+        struct W {
+            confidence: Option<f64>,
+            as_of: Option<String>,
+        }
+        let w: W = if settings.is_undefined() || settings.is_null() { W::default() } else { serde_wasm_bindgen::from_value(settings).map_err(err)? };
+        let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
+        let mut o = digitdrift_core::monitor::WatchOptions::default();
+        if let Some(c) = w.confidence {
+            if !(c > 0.0 && c < 1.0) {
+                return Err(err("confidence must be between 0 and 1"));
+            }
+            o.confidence = c;
+        }
+        if let Some(d) = w.as_of.filter(|d| !d.trim().is_empty()) {
+            let p: Vec<&str> = d.trim().split('-').collect();
+            let parsed = (p.len() == 3)
+                .then(|| Some((p[0].parse::<i32>().ok()?, p[1].parse::<u32>().ok()?, p[2].parse::<u32>().ok()?)))
+                .flatten()
+                .ok_or_else(|| err(format!("as-of date '{d}' is not YYYY-MM-DD")))?;
+            o.as_of = Some(digitdrift_core::intake::days_from_civil(parsed.0, parsed.1, parsed.2));
+        }
+        to_js(&digitdrift_core::monitor::watch(&r.ledger, &o))
+    }
+
     /// The invoices behind one bar of a digit chart: `test` is a battery test name
     /// (first_digit, second_digit, first_two, first_three, last_two, summation, second_order),
     /// `bin` the digit value. Supplier id, or -1 whole file, -2 credit notes.
