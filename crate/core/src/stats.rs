@@ -138,6 +138,7 @@ mod tests {
     }
 
     #[test]
+    #[allow(clippy::approx_constant)] // the handbook's rounded 0.30103, on purpose
     fn z_hand_worked() {
         // Hand-worked: n = 1000, p = 0.30103, count 350: po = 0.35, diff = 0.04897,
         // minus 1/2000 = 0.04847; sd = sqrt(0.30103*0.69897/1000) = 0.0145057...

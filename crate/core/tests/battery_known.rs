@@ -40,7 +40,7 @@ impl Big {
         Big(out)
     }
     /// Decimal text, exact.
-    fn to_string(&self) -> String {
+    fn decimal(&self) -> String {
         let mut s = self.0.last().unwrap().to_string();
         for l in self.0.iter().rev().skip(1) {
             s.push_str(&format!("{:09}", l));
@@ -50,7 +50,7 @@ impl Big {
     /// An Amount holding the leading (up to) 18 significant digits; digit tests only read
     /// significant digits, so the scale does not matter.
     fn leading_amount(&self) -> Amount {
-        let s = self.to_string();
+        let s = self.decimal();
         let head = &s[..s.len().min(18)];
         Amount(head.parse::<i64>().unwrap())
     }
@@ -63,7 +63,7 @@ fn bignum_is_exact() {
     for _ in 0..100 {
         x = x.add(&x);
     }
-    assert_eq!(x.to_string(), "1267650600228229401496703205376");
+    assert_eq!(x.decimal(), "1267650600228229401496703205376");
     assert_eq!(x.leading_amount(), Amount(126765060022822940));
 }
 
@@ -250,6 +250,25 @@ fn second_order_on_benford_and_sorted_uniform_data() {
     assert!(sw.zero_differences > 1000);
     let tens: u64 = (0..9).map(|k| sw.digits.counts[k * 10]).sum();
     assert!(tens as f64 > 0.99 * sw.digits.n as f64, "{tens} of {}", sw.digits.n);
+}
+
+#[test]
+fn second_order_hand_worked() {
+    // Sorted 10.00, 10.05, 10.10, 20.00, 20.00: differences 0.05, 0.05, 9.90, 0 -> bin 50 twice
+    // (0.05 reads as "5.0"), bin 99 once, one zero difference excluded, two below 0.10.
+    let v = [units(20), inv(100_500), units(10), units(20), inv(101_000)];
+    let so = run(&v, "second_order").second_order.unwrap();
+    assert_eq!(so.differences, 4);
+    assert_eq!(so.zero_differences, 1);
+    assert_eq!(so.differences_below_ten_cents, 2);
+    assert_eq!(so.digits.n, 3);
+    assert_eq!(so.digits.counts[50 - 10], 2);
+    assert_eq!(so.digits.counts[99 - 10], 1);
+    let r: Vec<&Invoice> = v.iter().collect();
+    // Drill-down: bin 50 comes from the pairs (10.00, 10.05) and (10.05, 10.10).
+    assert_eq!(battery::bin_members("second_order", 50, &r), vec![1, 2, 4]);
+    // Bin 99: the pair (10.10 = index 4, first 20.00 = index 0; ties keep file order).
+    assert_eq!(battery::bin_members("second_order", 99, &r), vec![0, 4]);
 }
 
 #[test]

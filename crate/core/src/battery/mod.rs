@@ -92,7 +92,7 @@ impl TestSet {
     }
     pub fn contains(&self, name: &str) -> bool {
         let mut c = *self;
-        c.slot(name).map_or(false, |b| *b)
+        c.slot(name).is_some_and(|b| *b)
     }
 }
 
@@ -160,9 +160,9 @@ impl fmt::Display for TestSet {
 #[serde(rename_all = "snake_case")]
 pub enum LastTwoBasis {
     /// Default. The last two digits as written with two decimals, i.e. the cents, for amounts
-    /// >= 10.00: they are then at least the 3rd and 4th significant digits, which are close to
-    /// uniform for Benford data (so 1/100 per pair is a fair expectation). Digits beyond the
-    /// cents (4-decimal amounts) are ignored.
+    /// of at least 10.00: they are then at least the 3rd and 4th significant digits, which are
+    /// close to uniform for Benford data (so 1/100 per pair is a fair expectation). Digits
+    /// beyond the cents (4-decimal amounts) are ignored.
     #[default]
     Cents,
     /// The last two digits of the whole-unit part, for amounts >= 1000 whole units (again at
@@ -179,7 +179,7 @@ impl LastTwoBasis {
             LastTwoBasis::Cents => (a.0 >= 10 * SCALE).then(|| a.cents() as u32),
             LastTwoBasis::WholeUnits => {
                 let w = a.whole_units();
-                (w >= 1000).then(|| (w % 100) as u32)
+                (w >= 1000).then_some((w % 100) as u32)
             }
         }
     }

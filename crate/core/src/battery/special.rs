@@ -124,17 +124,24 @@ pub struct SecondOrder {
     pub differences: u64,
     /// Zero differences (equal neighbouring amounts) are excluded from the counts.
     pub zero_differences: u64,
+    /// Nonzero differences below 0.10: with amounts to the cent they have one significant digit
+    /// and can only land in bins 10, 20, ..., 90 (a rounding effect, not a finding).
+    pub differences_below_ten_cents: u64,
     pub source: &'static str,
 }
 
 pub(crate) fn second_order(sorted: &[Keyed]) -> SecondOrder {
     let mut c = vec![0u64; 90];
     let mut zeros = 0u64;
+    let mut tiny = 0u64;
     for w in sorted.windows(2) {
         let d = w[1].key - w[0].key;
         if d == 0 {
             zeros += 1;
             continue;
+        }
+        if d < (SCALE / 10) as u64 {
+            tiny += 1;
         }
         let d = Amount(d.min(i64::MAX as u64) as i64);
         if let Some(v) = d.leading_digits(2) {
@@ -145,6 +152,7 @@ pub(crate) fn second_order(sorted: &[Keyed]) -> SecondOrder {
         digits: DigitTest::from_counts("second_order", 10, c, benford::first_two()),
         differences: sorted.len().saturating_sub(1) as u64,
         zero_differences: zeros,
+        differences_below_ten_cents: tiny,
         source: SECOND_ORDER_SOURCE,
     }
 }
