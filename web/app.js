@@ -26,7 +26,7 @@
   const fmtP = (p) => (p === null || p === undefined) ? '—' : (p < 1e-4 ? p.toExponential(1) : p.toFixed(4));
 
   // ---------- state ----------
-  const state = { report: null, intake: null, fileName: '', selected: null, sortKey: 'rank', sortDir: 1, geometry: {} };
+  const state = { pull: new Map(), notes: {}, report: null, intake: null, fileName: '', selected: null, sortKey: 'rank', sortDir: 1, geometry: {} };
   window.digitdrift = state; // for tests and the curious: read-only use
 
   // ---------- boot: wasm on this thread for charts, and the Worker ----------
@@ -73,6 +73,7 @@
     if (view === 'suppliers') drawSelected();
     if (view === 'supplier') renderSupplierFile();
     if (view === 'replay') renderReplay();
+    if (view === 'paper') renderPaper();
   }
   window.addEventListener('hashchange', () => show(location.hash.slice(1)));
   document.addEventListener('keydown', (e) => {
@@ -109,6 +110,7 @@
     return Object.assign({ min_amount: s.min_amount || '10' }, state.mapping || {});
   }
   loadSettings();
+  for (const id of Object.values(settingFields)) $(id).addEventListener('change', () => readSettings());
   $('forget').addEventListener('click', () => {
     try { localStorage.clear(); } catch (e) { /* nothing stored */ }
     for (const id of Object.values(settingFields)) { const f = $(id); f.value = f.defaultValue !== undefined && f.tagName === 'INPUT' ? f.defaultValue : f.querySelector('option[selected]').value; }
@@ -149,6 +151,10 @@
       await chartsReady;
       const res = await call('open', Object.assign(demo ? { demo } : { file }, { options: intakeOptions(), settings: screenSettings() }));
       state.fileName = res.name;
+      state.sha256 = res.sha256;
+      state.size = res.size;
+      state.pull = new Map(); state.notes = {}; updatePullCount();
+      $('replay-body').dataset.ready = ''; $('supplier-body').dataset.id = '';
       if (!res.intake.ok) { message(res.intake.message, 'error'); return; }
       state.intake = res.intake;
       state.report = res.screen;
@@ -345,7 +351,8 @@
     let sortKey = 'line', dir = 1, filter = '';
     const wrap = el('div', { class: 'table-wrap short' });
     const input = el('input', { type: 'search', class: 'filter', placeholder: 'Filter…', 'aria-label': 'Filter these invoices' });
-    const cols = [['line', 'Line', true], ['date', 'Date', false], ['amount', 'Amount', true]];
+    const cols = [['pull', 'To pull', false], ['line', 'Line', true], ['date', 'Date', false], ['amount', 'Amount', true]];
+    const key = (r) => r.supplier + '\u0000' + r.line;
     function render() {
       const f = filter.toLowerCase();
       const shown = rows.filter((r) => !f || r.date.includes(f) || String(r.amount).includes(f) || String(r.line).includes(f))
@@ -353,15 +360,95 @@
       wrap.replaceChildren(el('table', { class: 'grid compact', id: tableId },
         el('thead', null, el('tr', null, cols.map(([k, label, num]) => el('th', { class: num ? 'num' : null },
           el('button', { class: 'sort', type: 'button', onclick: () => { dir = sortKey === k ? -dir : 1; sortKey = k; render(); } }, label))))),
-        el('tbody', null, shown.slice(0, 1000).map((r) => el('tr', null, el('td', { class: 'num', text: r.line }), el('td', { text: r.date }), el('td', { class: 'num', text: fmtMoney(r.amount) }))))));
+        el('tbody', null, shown.slice(0, 1000).map((r) => {
+          const cb = el('input', { type: 'checkbox', 'aria-label': `Pull the invoice on line ${r.line}`, checked: state.pull.has(key(r)) });
+          cb.addEventListener('change', () => {
+            if (cb.checked) state.pull.set(key(r), { supplier: r.supplier, line: r.line, date: r.date, amount: r.amount, reason: title });
+            else state.pull.delete(key(r));
+            updatePullCount();
+          });
+          return el('tr', null, el('td', null, cb), el('td', { class: 'num', text: r.line }), el('td', { text: r.date }), el('td', { class: 'num', text: fmtMoney(r.amount) }));
+        }))));
     }
     input.addEventListener('input', () => { filter = input.value.trim(); render(); });
     render();
-    box.replaceChildren(...[el('h3', { text: title }), input, wrap,
+    const all = el('button', { type: 'button', class: 'btn alt small', onclick: () => {
+      for (const r of rows) state.pull.set(key(r), { supplier: r.supplier, line: r.line, date: r.date, amount: r.amount, reason: title });
+      updatePullCount(); render();
+    } }, 'Tick all to pull');
+    box.replaceChildren(...[el('h3', { text: title }), el('div', { class: 'row' }, input, all), wrap,
       rows.length > 1000 ? el('p', { class: 'small', text: `The first 1,000 of ${fmtInt(rows.length)} are listed.` }) : null].filter(Boolean));
   }
   state.showInvoices = showInvoices;
   window.addEventListener('resize', () => drawSelected());
+
+  function updatePullCount() {
+    const n = state.pull.size;
+    const a = document.querySelector('#nav a[data-view="paper"]');
+    a.textContent = '6 Working paper' + (n ? ` (${n} to pull)` : '');
+  }
+
+  // ---------- working paper: exports and a printable report ----------
+  function download(name, text, type) {
+    const url = URL.createObjectURL(new Blob([text], { type: type || 'text/csv;charset=utf-8' }));
+    const a = el('a', { href: url, download: name });
+    document.body.append(a); a.click(); a.remove();
+    setTimeout(() => URL.revokeObjectURL(url), 10000);
+  }
+  const baseName = () => (state.fileName || 'ledger').replace(/\.[^.]*$/, '');
+  async function exportSuppliers() {
+    const csv = await call('exportSuppliers', { fileName: state.fileName });
+    state.lastExport = csv;
+    download(baseName() + '-supplier-results.csv', csv);
+  }
+  async function exportPull() {
+    const csv = await call('exportPull', { items: [...state.pull.values()], fileName: state.fileName });
+    state.lastPullExport = csv;
+    download(baseName() + '-invoices-to-pull.csv', csv);
+  }
+  function renderPaper() {
+    const body = $('paper-body');
+    const rep = state.report;
+    if (!rep) { body.replaceChildren(el('p', { text: 'Open a ledger first.' })); return; }
+    const c = rep.calibration, r = rep.rows;
+    const now = new Date();
+    const params = [
+      ['File', state.fileName], ['SHA-256 of the file', state.sha256 || ''], ['Size', fmtInt(state.size || 0) + ' bytes'],
+      ['Rows', `${fmtInt(r.read)} read = ${fmtInt(r.analysed)} analysed + ${fmtInt(r.excluded)} excluded`],
+      ['Columns used', ['supplier', 'amount', 'date', 'invoice'].map((k) => { const i = rep.intake.mapping[k]; return i === null || i === undefined ? null : `${k}: ${rep.intake.columns[i]}`; }).filter(Boolean).join('; ')],
+      ['Tests', rep.parameters.tests], ['Minimum amount tested', fmtMoney(rep.parameters.min_amount)],
+      ['Approval limits', rep.parameters.approval_limits.length ? rep.parameters.approval_limits.map(fmtMoney).join('; ') : 'none'],
+      ['Confidence', c ? (100 * c.confidence).toFixed(1) + ' %' : '—'], ['Seed', c ? String(c.seed) : '—'], ['Simulations per size', c ? fmtInt(c.sims) : '—'],
+      ['Correction across suppliers', c ? c.correction : '—'], ['Prepared', now.toISOString().replace('T', ' ').slice(0, 19) + ' UTC'],
+    ];
+    const flagged = rep.suppliers.filter((s) => s.verdict === 'deviates');
+    const overview = $('chart-overview');
+    body.replaceChildren(
+      el('div', { class: 'noprint' }, el('p', null,
+        el('button', { class: 'btn', type: 'button', id: 'export-suppliers', onclick: exportSuppliers }, 'Supplier results (CSV)'), ' ',
+        el('button', { class: 'btn', type: 'button', id: 'export-pull', onclick: exportPull }, `Invoices to pull (CSV, ${state.pull.size})`), ' ',
+        el('button', { class: 'btn alt', type: 'button', onclick: () => window.print() }, 'Print or save as PDF'))),
+      el('p', { class: 'caution', text: CAUTION }),
+      el('h2', { text: 'Engagement facts' }),
+      el('table', { class: 'grid compact', id: 'paper-params' }, el('tbody', null, params.map(([k, v]) => el('tr', null, el('th', { text: k }), el('td', { text: v }))))),
+      el('h2', { text: 'Row accounting' }),
+      el('table', { class: 'grid compact' }, el('tbody', null, r.exclusions.map((e) => el('tr', null, el('td', { text: e.description }), el('td', { class: 'num', text: fmtInt(e.count) }))))),
+      el('h2', { text: 'Results' }),
+      el('p', { text: c ? `${c.alarms} of ${rep.suppliers.length} suppliers stand out for their size; ${c.too_few} have too few invoices for a verdict.` : '' }),
+      overview && overview.width ? el('img', { class: 'paper-chart', alt: 'Overview chart: suppliers by size', src: overview.toDataURL('image/png') }) : null,
+      el('table', { class: 'grid compact', id: 'paper-results' },
+        el('thead', null, el('tr', null, ['#', 'Supplier', 'Verdict', 'Invoices', 'Amount paid', 'MAD 10–99', 'Limit', 'Simulated p', 'Reviewer\u2019s note'].map((h) => el('th', { text: h })))),
+        el('tbody', null, rep.suppliers.map((s, i) => el('tr', null, el('td', { text: String(i + 1) }), el('td', { text: s.name }), el('td', { class: 'v-' + s.verdict, text: VERDICT[s.verdict] || '—' }),
+          el('td', { class: 'num', text: fmtInt(s.invoices) }), el('td', { class: 'num', text: fmtMoney(s.amount_total) }), el('td', { class: 'num', text: s.first_two.mad.toFixed(5) }),
+          el('td', { class: 'num', text: s.first_two.mad_critical !== undefined ? s.first_two.mad_critical.toFixed(5) : '—' }), el('td', { class: 'num', text: fmtP(s.first_two.mc_p_value) }),
+          el('td', { class: 'note', text: state.notes[s.name] || '' }))))),
+      el('h2', { text: `Invoices to pull (${state.pull.size})` }),
+      el('table', { class: 'grid compact', id: 'paper-pull' }, el('thead', null, el('tr', null, ['Supplier', 'Line', 'Date', 'Amount', 'Why'].map((h) => el('th', { text: h })))),
+        el('tbody', null, [...state.pull.values()].sort((a, b) => a.supplier < b.supplier ? -1 : a.supplier > b.supplier ? 1 : a.line - b.line).map((p) =>
+          el('tr', null, el('td', { text: p.supplier }), el('td', { class: 'num', text: p.line }), el('td', { text: p.date }), el('td', { class: 'num', text: fmtMoney(p.amount) }), el('td', { text: p.reason }))))),
+      el('p', { class: 'small', text: flagged.length ? 'Suppliers that stand out: ' + flagged.map((s) => s.name).join(', ') + '. Each is a reason to look at the documents, not a conclusion.' : 'No supplier stands out at this confidence.' }),
+      el('p', { class: 'small', text: 'Prepared with digitdrift ' + $('version').textContent + ', in the browser, offline. Same file and seed give the same numbers.' }));
+  }
 
   // ---------- replay: continuous monitoring over the ledger's dates ----------
   async function renderReplay(force) {
@@ -454,7 +541,10 @@
     const drillBox = el('div', { id: 'file-drill', class: 'drill' });
     const charts = el('div', { class: 'chart-grid' });
     const powerCanvas = el('canvas', { class: 'chart', id: 'chart-power', role: 'img', 'aria-label': 'Power curve: chance of detecting the deviation model against invoice count' });
-    body.replaceChildren(el('p', { class: 'caution', text: CAUTION }), facts, verdictBlock(d, powerCanvas), testSummary(d), charts, drillBox, amountChecks(d, drillBox));
+    const note = el('textarea', { id: 'reviewer-note', rows: 3, 'aria-label': 'Reviewer\u2019s note for this supplier (kept in this tab only, printed on the working paper)', placeholder: 'Reviewer\u2019s note: what was checked, what the documents showed…' });
+    note.value = state.notes[d.name] || '';
+    note.addEventListener('input', () => { state.notes[d.name] = note.value; });
+    body.replaceChildren(el('p', { class: 'caution', text: CAUTION }), facts, el('label', { class: 'note-label' }, 'Reviewer\u2019s note', note), verdictBlock(d, powerCanvas), testSummary(d), charts, drillBox, amountChecks(d, drillBox));
     if (d.calibration && d.calibration.power_curve.length) {
       const cal = d.calibration, dpr = sizeCanvas(powerCanvas);
       wasm_bindgen.drawScatter(powerCanvas, { title: 'How many invoices a verdict needs', log_x: true, scale: dpr, as_line: true, x_label: 'invoices (log scale)', y_label: 'chance of detection',

@@ -38,7 +38,7 @@ async function openLedger(id, blob, name, options, settings) {
   post({ progress: true, id, done, total, rows: intake.rows.read, stage: 'screening' });
   const screen = session.screen(settings || {});
   const ms = performance.now() - t0;
-  post({ id, ok: true, value: { name, size: total, intake, screen, ms } });
+  post({ id, ok: true, value: { name, size: total, intake, screen, ms, sha256: session.fingerprint() } });
 }
 
 const handlers = {
@@ -50,6 +50,8 @@ const handlers = {
     return openLedger(id, file, file.name, options, settings);
   },
   async rescreen({ id, settings }) { post({ id, ok: true, value: session.screen(settings || {}) }); },
+  async exportSuppliers({ id, fileName }) { post({ id, ok: true, value: session.suppliersCsv(fileName) }); },
+  async exportPull({ id, items, fileName }) { post({ id, ok: true, value: session.pullCsv(items, fileName) }); },
   async watch({ id, settings }) { post({ id, ok: true, value: session.watch(settings || {}) }); },
   async detail({ id, supplier }) { post({ id, ok: true, value: session.supplierDetail(supplier) }); },
   async members({ id, supplier, test, bin }) { post({ id, ok: true, value: session.binMembers(supplier, test, bin) }); },

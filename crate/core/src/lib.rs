@@ -20,6 +20,7 @@ pub mod battery;
 pub mod calibrate;
 pub mod monitor;
 pub mod report;
+pub mod export;
 pub mod rng;
 
 pub use amount::Amount;

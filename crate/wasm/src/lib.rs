@@ -71,6 +71,7 @@ pub struct Session {
     result: Option<IntakeResult>,
     min_amount: Amount,
     report: Option<report::ScreenReport>,
+    fingerprint: digitdrift_core::export::Fingerprint,
 }
 
 #[wasm_bindgen]
@@ -78,11 +79,12 @@ impl Session {
     #[wasm_bindgen(constructor)]
     pub fn new(options: JsValue) -> Result<Session, JsValue> {
         let o = intake_options(options)?;
-        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None })
+        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default() })
     }
 
     /// Feed the next chunk of the file, in order.
     pub fn feed(&mut self, chunk: &[u8]) -> Result<(), JsValue> {
+        self.fingerprint.update(chunk);
         self.intake.as_mut().ok_or_else(|| err("intake already finished"))?.feed(chunk).map_err(err)
     }
 
@@ -130,6 +132,25 @@ impl Session {
             _ => rep.suppliers.iter().find(|s| s.id as i32 == id),
         };
         to_js(&s.ok_or_else(|| err("no such supplier"))?)
+    }
+
+    /// SHA-256 of the file as read (hex).
+    pub fn fingerprint(&self) -> String {
+        self.fingerprint.hex()
+    }
+
+    /// CSV of the supplier results (formula-neutralised, byte-identical for the same inputs).
+    #[wasm_bindgen(js_name = suppliersCsv)]
+    pub fn suppliers_csv(&self, file_name: &str) -> Result<String, JsValue> {
+        let rep = self.report.as_ref().ok_or_else(|| err("no screen yet"))?;
+        Ok(digitdrift_core::export::suppliers_csv(rep, file_name, &self.fingerprint.hex()))
+    }
+
+    /// CSV of the invoices to pull: `items` = [{supplier, line, date, amount, reason}].
+    #[wasm_bindgen(js_name = pullCsv)]
+    pub fn pull_csv(&self, items: JsValue, file_name: &str) -> Result<String, JsValue> {
+        let items: Vec<digitdrift_core::export::PullItem> = serde_wasm_bindgen::from_value(items).map_err(err)?;
+        Ok(digitdrift_core::export::pull_csv(&items, file_name, &self.fingerprint.hex()))
     }
 
     /// Continuous monitoring replayed over the ledger: per supplier the alarm date, evidence
