@@ -253,3 +253,25 @@ def test_limit_cluster_binomial_against_scipy():
     assert l["expected_share"] == pytest.approx(q, rel=1e-9)
     assert l["p_value"] == pytest.approx(stats.binom.sf(count - 1, total, q), rel=1e-6, abs=1e-300)
     assert l["p_value"] < 1e-10
+
+
+def test_summation_against_numpy():
+    # Sum of amounts per first-two bin (exact integer cents in Python), shares against 1/90
+    # (sum invariance of Benford data: Allaart 1997, from memory); MAD of the shares by numpy.
+    cents = RNG.integers(1000, 90_000_000, 5000)
+    cents[7] = 4_700_000_000  # one huge amount: 47,000,000.00 in bin 47
+    text = [f"{c // 100}.{c % 100:02d}" for c in cents]
+    out = probe_json("amounts", "--tests", "summation", stdin=amounts_csv(text))
+    s = out["summation"]
+    sums = np.zeros(90, dtype=object)
+    for c in cents:
+        sums[int(str(int(c))[:2]) - 10] += int(c)
+    total = int(sum(int(c) for c in cents))
+    shares = np.array([int(x) / total for x in sums], dtype=float)
+    np.testing.assert_allclose(s["sums"], [int(x) / 100 for x in sums], rtol=1e-12)
+    np.testing.assert_allclose(s["shares"], shares, rtol=1e-12)
+    assert s["mad"] == pytest.approx(np.mean(np.abs(shares - 1 / 90)), rel=1e-9)
+    flagged = [b for b in range(10, 100) if shares[b - 10] >= 2 / 90]
+    assert [f["bin"] for f in s["flagged"]] == flagged
+    f47 = next(f for f in s["flagged"] if f["bin"] == 47)
+    assert f47["largest_invoice"] == 7
