@@ -7,6 +7,16 @@
 //! use |amount| (credit notes are stored positive). One pass over the population feeds every
 //! digit test; one radix sort of the amounts feeds the second-order test and the amount checks.
 //!
+//! Decisions:
+//! - Last-two digits: by default the cents of amounts of at least 10.00 (at least the 3rd and
+//!   4th significant digits, so close to uniform); [`LastTwoBasis::WholeUnits`] reads the last
+//!   two whole-unit digits of amounts of at least 1000 instead, for populations invoiced in
+//!   whole units.
+//! - First-three and second digits use every nonzero amount (a one-digit amount like 5.00 reads
+//!   as "5.0", as its decimal text would); intake already drops amounts below its minimum.
+//! - MAD conformity bands are the published fixed bands (see [`BANDS_SOURCE`]); they ignore
+//!   sample size, and the calibration module fills `mc_p_value` / `mad_critical` later.
+//!
 //! A deviation is a reason to look, not proof of wrongdoing: do not accuse a supplier on it
 //! alone; defer to professional auditing standards, local law and counsel.
 
