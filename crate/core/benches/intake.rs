@@ -1,1 +1,61 @@
-fn main() {}
+//! Intake throughput on a generated ledger of 2,000,000 rows (~90 MB): semicolon-separated,
+//! decimal comma with point grouping, day-first dates, invoice numbers, 400 suppliers.
+//! Fed in 1 MiB chunks like the CLI does. Throughput is reported in bytes (criterion: MB/s).
+//! Run: `cargo bench -p digitdrift-core --bench intake`.
+
+use criterion::{criterion_group, criterion_main, Criterion, Throughput};
+use digitdrift_core::intake::{Intake, IntakeOptions};
+use std::hint::black_box;
+use std::io::Write;
+
+fn generate(rows: usize) -> Vec<u8> {
+    let mut out = Vec::with_capacity(rows * 46);
+    out.extend_from_slice(b"Lieferant;Belegnummer;Belegdatum;Bruttobetrag\n");
+    let mut x: u64 = 0x9E37_79B9_7F4A_7C15;
+    let mut next = || {
+        // xorshift64* (Vigna)
+        x ^= x >> 12;
+        x ^= x << 25;
+        x ^= x >> 27;
+        x.wrapping_mul(0x2545_F491_4F6C_DD1D)
+    };
+    let names: Vec<String> = (0..400).map(|i| format!("Lieferant {:03} GmbH", i)).collect();
+    for i in 0..rows {
+        let r = next();
+        let sup = &names[(r % 400) as usize];
+        // Log-uniform-ish amounts from 10 to 99,999.99.
+        let mag = 10u64.pow(1 + (r >> 20) as u32 % 4);
+        let cents = mag * 100 + (r >> 32) % (mag * 900);
+        let (whole, frac) = (cents / 100, cents % 100);
+        let day = 1 + (r >> 8) % 28;
+        let month = 1 + (r >> 14) % 12;
+        if whole >= 1000 {
+            write!(out, "{sup};R{i:08};{day:02}.{month:02}.2024;{}.{:03},{frac:02}\n", whole / 1000, whole % 1000).unwrap();
+        } else {
+            write!(out, "{sup};R{i:08};{day:02}.{month:02}.2024;{whole},{frac:02}\n").unwrap();
+        }
+    }
+    out
+}
+
+fn bench(c: &mut Criterion) {
+    let data = generate(2_000_000);
+    let mut g = c.benchmark_group("intake");
+    g.throughput(Throughput::Bytes(data.len() as u64));
+    g.sample_size(10);
+    g.bench_function(format!("2M rows, {:.1} MB, 1 MiB chunks", data.len() as f64 / 1e6), |b| {
+        b.iter(|| {
+            let mut it = Intake::new(IntakeOptions::default());
+            for chunk in data.chunks(1 << 20) {
+                it.feed(chunk).unwrap();
+            }
+            let r = it.finish().unwrap();
+            assert_eq!(r.ledger.accounting.read, 2_000_000);
+            black_box(r.ledger.invoices.len())
+        })
+    });
+    g.finish();
+}
+
+criterion_group!(benches, bench);
+criterion_main!(benches);

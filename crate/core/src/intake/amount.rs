@@ -123,41 +123,57 @@ pub fn parse_amount(cell: &[u8], conv: Option<DecimalConvention>) -> Option<(Amo
         return None;
     }
     let mut neg = false;
+    // Fast path: a plain number (digit first and last) has no sign or currency marker.
+    if !(s[0].is_ascii_digit() && s[s.len() - 1].is_ascii_digit()) {
+        strip_markers(&mut s, &mut neg);
+    }
+    parse_core(s, neg, conv)
+}
+
+/// Strip brackets, CR/DR, currency markers and signs, setting `neg`.
+fn strip_markers(s: &mut &[u8], neg: &mut bool) {
+    let mut t: &[u8] = s;
+    let mut n = *neg;
     // Accounting brackets.
-    if s[0] == b'(' && s[s.len() - 1] == b')' {
-        neg = true;
-        s = trim_cell(&s[1..s.len() - 1]);
+    if t[0] == b'(' && t[t.len() - 1] == b')' {
+        n = true;
+        t = trim_cell(&t[1..t.len() - 1]);
     }
     // CR / DR markers at the end (or start).
-    if s.len() >= 2 {
-        let tail = &s[s.len() - 2..];
+    if t.len() >= 2 {
+        let tail = &t[t.len() - 2..];
         if tail.eq_ignore_ascii_case(b"CR") {
-            neg = !neg;
-            s = trim_cell(&s[..s.len() - 2]);
+            n = !n;
+            t = trim_cell(&t[..t.len() - 2]);
         } else if tail.eq_ignore_ascii_case(b"DR") {
-            s = trim_cell(&s[..s.len() - 2]);
+            t = trim_cell(&t[..t.len() - 2]);
         }
     }
     // Currency and signs may come in either order: "-€ 12", "€ -12", "12 € -"...
     for _ in 0..2 {
-        let k = currency_prefix(s);
+        let k = currency_prefix(t);
         if k > 0 {
-            s = strip_ws_start(&s[k..]);
+            t = strip_ws_start(&t[k..]);
         }
-        let k = currency_suffix(s);
+        let k = currency_suffix(t);
         if k > 0 {
-            s = trim_cell(&s[..s.len() - k]);
+            t = trim_cell(&t[..t.len() - k]);
         }
-        if let Some(r) = s.strip_prefix(b"-").or_else(|| s.strip_prefix("−".as_bytes())) {
-            neg = !neg;
-            s = strip_ws_start(r);
-        } else if let Some(r) = s.strip_prefix(b"+") {
-            s = strip_ws_start(r);
-        } else if let Some(r) = s.strip_suffix(b"-").or_else(|| s.strip_suffix("−".as_bytes())) {
-            neg = !neg;
-            s = trim_cell(r);
+        if let Some(r) = t.strip_prefix(b"-").or_else(|| t.strip_prefix("−".as_bytes())) {
+            n = !n;
+            t = strip_ws_start(r);
+        } else if let Some(r) = t.strip_prefix(b"+") {
+            t = strip_ws_start(r);
+        } else if let Some(r) = t.strip_suffix(b"-").or_else(|| t.strip_suffix("−".as_bytes())) {
+            n = !n;
+            t = trim_cell(r);
         }
     }
+    *s = t;
+    *neg = n;
+}
+
+fn parse_core(s: &[u8], neg: bool, conv: Option<DecimalConvention>) -> Option<(Amount, Hint)> {
     if s.is_empty() {
         return None;
     }

@@ -1,7 +1,8 @@
 //! Date cells -> days since 1970-01-01.
 //!
 //! Shapes: ISO 8601 `2024-03-07` (also `/` or `.` between parts, year first), `07.03.2024`,
-//! `07/03/2024`, `03/07/2024` (day-first or month-first, decided for the whole column),
+//! `07/03/2024`, `03/07/2024` (day-first or month-first, decided for the whole column;
+//! dotted dates are day-first),
 //! two-digit years, compact `20240307`, spreadsheet serial numbers, and an optional time part
 //! after a space or `T` (ignored).
 //!
@@ -179,6 +180,9 @@ pub fn parse_date(cell: &[u8], order: Option<DateOrder>) -> Option<DateCell> {
             match order {
                 Some(DateOrder::Dmy) => dmy.map(|days| DateCell::Fixed { days, hint: None }),
                 Some(DateOrder::Mdy) => mdy.map(|days| DateCell::Fixed { days, hint: None }),
+                // Dotted dates are day-first wherever they are written (de, nl, nordic, pl,
+                // ru...; common practice, no source).
+                _ if sep == b'.' && dmy.is_some() => dmy.map(|days| DateCell::Fixed { days, hint: Some(DateOrder::Dmy) }),
                 _ => match (dmy, mdy) {
                     (Some(x), Some(y2)) if x == y2 => Some(DateCell::Fixed { days: x, hint: None }),
                     (Some(x), Some(y2)) => Some(DateCell::Ambiguous { dmy: x, mdy: y2 }),
@@ -208,7 +212,8 @@ mod tests {
         assert_eq!(iso("2024-03-07", None).as_deref(), Some("2024-03-07"));
         assert_eq!(iso("2024-03-07T10:22:01", None).as_deref(), Some("2024-03-07"));
         assert_eq!(iso("2024-03-07 10:22", None).as_deref(), Some("2024-03-07"));
-        assert_eq!(iso("07.03.2024", None).as_deref(), Some("2024-03-07|2024-07-03"));
+        assert_eq!(iso("07/03/2024", None).as_deref(), Some("2024-03-07|2024-07-03"));
+        assert_eq!(iso("07.03.2024", None).as_deref(), Some("2024-03-07"));
         assert_eq!(iso("07.03.2024", Some(DateOrder::Dmy)).as_deref(), Some("2024-03-07"));
         assert_eq!(iso("03/07/2024", Some(DateOrder::Mdy)).as_deref(), Some("2024-03-07"));
         assert_eq!(iso("31/03/2024", None).as_deref(), Some("2024-03-31"));

@@ -391,6 +391,7 @@ struct Run {
     run_sum: i128,
     run_rows: u64,
     grand_sum: i128,
+    grand_rows: u64,
     bad_dates: u64,
     recoded_names: u64,
     decimal_votes: (u64, u64),
@@ -531,8 +532,10 @@ fn analyse_head(text: &[u8], eof: bool, enc: Enc, opts: &IntakeOptions) -> Resul
             st.non_empty += 1;
             let is_date = parse_date(b, None).is_some() && b.iter().any(|x| !x.is_ascii_digit());
             let amt = parse_amount(b, None);
-            if is_date {
+            if parse_date(b, None).is_some() {
                 st.dates += 1;
+            }
+            if is_date {
             } else if let Some((_, h)) = amt {
                 st.amounts += 1;
                 if h != Hint::Neutral {
@@ -596,6 +599,8 @@ fn analyse_head(text: &[u8], eof: bool, enc: Enc, opts: &IntakeOptions) -> Resul
                 }
                 best.map(|b| b.1)
             });
+            // A header that says "amount" wins over content when no column reads as amounts.
+            let c = c.or_else(|| by_header(Role::Amount, &used, &|_| true));
             let c = c.ok_or(IntakeError::NoNumericColumn)?;
             used.push(c);
             c
@@ -608,6 +613,7 @@ fn analyse_head(text: &[u8], eof: bool, enc: Enc, opts: &IntakeOptions) -> Resul
             let c = by_header(Role::Date, &used, &date_ok).or_else(|| {
                 (0..ncols).find(|&i| !used.contains(&i) && stats[i].non_empty > 0 && frac(stats[i].dates, stats[i].non_empty) >= 0.8)
             });
+            let c = c.or_else(|| by_header(Role::Date, &used, &|_| true));
             if let Some(c) = c {
                 used.push(c);
             }
@@ -719,6 +725,7 @@ impl Run {
             run_sum: 0,
             run_rows: 0,
             grand_sum: 0,
+            grand_rows: 0,
             bad_dates: 0,
             recoded_names: 0,
             decimal_votes: (0, 0),
@@ -895,7 +902,7 @@ impl Run {
             // A line with no supplier whose amount is the sum of the rows above is a total.
             if let Some((a, _)) = parse_amount(raw_amount, self.conv) {
                 let v = a.0 as i128;
-                if v != 0 && self.run_rows > 0 && (v == self.run_sum || v == self.grand_sum) {
+                if v != 0 && ((self.run_rows > 0 && v == self.run_sum) || (self.grand_rows > 0 && v == self.grand_sum)) {
                     self.run_sum = 0;
                     self.run_rows = 0;
                     exclude!(ExclusionReason::TotalsLine);
@@ -929,6 +936,7 @@ impl Run {
         self.run_sum += a.0 as i128;
         self.grand_sum += a.0 as i128;
         self.run_rows += 1;
+        self.grand_rows += 1;
         // Date.
         let mut date = NO_DATE;
         if let Some(dc) = m.date {
