@@ -11,7 +11,8 @@ step "cargo test (core, CLI, demo generator)"
 cargo test --workspace --exclude digitdrift-wasm
 
 step "release CLI for the outside checks"
-cargo build --release -p digitdrift -p digitdrift-demo-gen --examples --bins
+cargo build --release -p digitdrift -p digitdrift-demo-gen --bins
+cargo build --release -p digitdrift-core --examples
 export DIGITDRIFT_BIN="$(pwd)/target/release/digitdrift"
 export DIGITDRIFT_RELEASE_DIR="$(pwd)/target/release"
 

@@ -59,19 +59,12 @@ impl Amount {
     /// 0.0456 with k=2 -> 45, 5 with k=2 -> 50 (a single significant digit is padded with zero,
     /// as the decimal text "5.0" would be). None for zero.
     pub fn leading_digits(self, k: u32) -> Option<u32> {
-        let mut v = self.0.unsigned_abs();
+        let v = self.0.unsigned_abs();
         if v == 0 || k == 0 || k > 18 {
             return None;
         }
-        let lo = 10u64.pow(k - 1);
-        let hi = 10u64.pow(k);
-        while v >= hi {
-            v /= 10;
-        }
-        while v < lo {
-            v *= 10;
-        }
-        Some(v as u32)
+        let d = v.ilog10() + 1; // number of decimal digits of the integer
+        Some(if d >= k { v / 10u64.pow(d - k) } else { v * 10u64.pow(k - d) } as u32)
     }
 
     /// The second significant digit (0-9).
