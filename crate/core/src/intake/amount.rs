@@ -134,23 +134,22 @@ pub fn parse_amount(cell: &[u8], conv: Option<DecimalConvention>) -> Option<(Amo
 fn strip_markers(s: &mut &[u8], neg: &mut bool) {
     let mut t: &[u8] = s;
     let mut n = *neg;
-    // Accounting brackets.
-    if t[0] == b'(' && t[t.len() - 1] == b')' {
-        n = true;
-        t = trim_cell(&t[1..t.len() - 1]);
-    }
-    // CR / DR markers at the end (or start).
-    if t.len() >= 2 {
-        let tail = &t[t.len() - 2..];
-        if tail.eq_ignore_ascii_case(b"CR") {
+    // Brackets, CR/DR, currency and signs may come in any order: "-€ 12", "€ (12)",
+    // "12 CR €"...
+    for _ in 0..3 {
+        if t.len() >= 2 && t[0] == b'(' && t[t.len() - 1] == b')' {
             n = !n;
-            t = trim_cell(&t[..t.len() - 2]);
-        } else if tail.eq_ignore_ascii_case(b"DR") {
-            t = trim_cell(&t[..t.len() - 2]);
+            t = trim_cell(&t[1..t.len() - 1]);
         }
-    }
-    // Currency and signs may come in either order: "-€ 12", "€ -12", "12 € -"...
-    for _ in 0..2 {
+        if t.len() >= 2 {
+            let tail = &t[t.len() - 2..];
+            if tail.eq_ignore_ascii_case(b"CR") {
+                n = !n;
+                t = trim_cell(&t[..t.len() - 2]);
+            } else if tail.eq_ignore_ascii_case(b"DR") {
+                t = trim_cell(&t[..t.len() - 2]);
+            }
+        }
         let k = currency_prefix(t);
         if k > 0 {
             t = strip_ws_start(&t[k..]);
@@ -167,6 +166,9 @@ fn strip_markers(s: &mut &[u8], neg: &mut bool) {
         } else if let Some(r) = t.strip_suffix(b"-").or_else(|| t.strip_suffix("−".as_bytes())) {
             n = !n;
             t = trim_cell(r);
+        }
+        if t.is_empty() || (t[0].is_ascii_digit() && t[t.len() - 1].is_ascii_digit()) {
+            break;
         }
     }
     *s = t;
@@ -324,6 +326,8 @@ mod tests {
         assert_eq!(p("1,234.56 CR", None).as_deref(), Some("-1234.56"));
         assert_eq!(p("1,234.56 DR", None).as_deref(), Some("1234.56"));
         assert_eq!(p("USD 99", None).as_deref(), Some("99.00"));
+        assert_eq!(p("EUR (1,234.56)", None).as_deref(), Some("-1234.56"));
+        assert_eq!(p("1.234,56 CR €", None).as_deref(), Some("-1234.56"));
         assert_eq!(p("12,5", None).as_deref(), Some("12.50"));
         assert_eq!(p("0,125", None).as_deref(), Some("0.125"));
         assert_eq!(p("1.234.567", None).as_deref(), Some("1234567.00"));
