@@ -155,7 +155,11 @@
       state.size = res.size;
       state.pull = new Map(); state.notes = {}; updatePullCount();
       $('replay-body').dataset.ready = ''; $('supplier-body').dataset.id = '';
-      if (!res.intake.ok) { message(res.intake.message, 'error'); return; }
+      if (!res.intake.ok) {
+        message(res.intake.message, 'error');
+        if (file && /ambiguous/.test(res.intake.error.kind)) mapping(file, intakeOptions());
+        return;
+      }
       state.intake = res.intake;
       state.report = res.screen;
       state.selected = res.screen.suppliers.length ? res.screen.suppliers[0].id : null;
@@ -171,9 +175,64 @@
       $('progress').hidden = true;
     }
   }
-  $('file').addEventListener('change', (e) => { if (e.target.files[0]) open(e.target.files[0]); });
+  // ---------- the mapping step: which column is which, previewed as parsed ----------
+  async function mapping(file, options) {
+    message('');
+    await chartsReady;
+    state.pendingFile = file;
+    const res = await call('preview', { file, options: options || intakeOptions() });
+    const box = $('mapping');
+    if (!res.ok) { box.hidden = true; message(res.message, 'error'); return; }
+    const p = res.preview;
+    const colSelect = (key, label, optional) => {
+      const sel = el('select', { id: 'map-' + key, 'aria-label': label },
+        optional ? el('option', { value: '' }, '(none)') : null,
+        p.columns.map((c, i) => el('option', { value: String(i + 1), selected: p.mapping[key] === i }, `${i + 1}: ${c}`)));
+      if (optional && (p.mapping[key] === null || p.mapping[key] === undefined)) sel.value = '';
+      return el('label', null, label, sel);
+    };
+    const decSel = el('select', { id: 'map-decimal' }, el('option', { value: '' }, p.decimal ? `as detected (${p.decimal === 'comma' ? 'decimal comma' : 'decimal point'})` : 'not decided yet'),
+      el('option', { value: 'point' }, 'decimal point: 1,234.56'), el('option', { value: 'comma' }, 'decimal comma: 1.234,56'));
+    const ordSel = el('select', { id: 'map-date-order' }, el('option', { value: '' }, p.date_order ? `as detected (${p.date_order})` : 'not decided yet'),
+      el('option', { value: 'dmy' }, 'day/month/year'), el('option', { value: 'mdy' }, 'month/day/year'), el('option', { value: 'ymd' }, 'year-month-day'));
+    const opts = options || {};
+    if (opts.decimal) decSel.value = opts.decimal;
+    if (opts.date_order) ordSel.value = opts.date_order;
+    const questions = [];
+    if (p.decimal_ambiguous) questions.push(el('p', { class: 'msg error', id: 'ask-decimal', text: `Column \u201c${p.decimal_ambiguous.column}\u201d could be read with a decimal comma or a decimal point (for example ${p.decimal_ambiguous.examples.join(', ')}). Please choose which before screening.` }));
+    if (p.date_order_ambiguous) questions.push(el('p', { class: 'msg error', id: 'ask-date-order', text: `Dates in \u201c${p.date_order_ambiguous.column}\u201d could be day-first or month-first (for example ${p.date_order_ambiguous.examples.join(', ')}). Please choose the order.` }));
+    const current = () => ({
+      supplier: $('map-supplier').value, amount: $('map-amount').value, date: $('map-date').value, invoice: $('map-invoice').value,
+      decimal: decSel.value, date_order: ordSel.value, min_amount: readSettings().min_amount || '10' });
+    const refresh = () => mapping(file, current());
+    const go = el('button', { class: 'btn', type: 'button', id: 'map-go' }, 'Screen this ledger');
+    go.addEventListener('click', () => {
+      const c = current();
+      if (p.decimal_ambiguous && !c.decimal) { decSel.focus(); return; }
+      if (p.date_order_ambiguous && !c.date_order) { ordSel.focus(); return; }
+      state.mapping = { supplier: c.supplier, amount: c.amount, date: c.date, invoice: c.invoice, decimal: c.decimal, date_order: c.date_order };
+      box.hidden = true;
+      open(file);
+    });
+    const grid = el('div', { class: 'settings-grid' }, colSelect('supplier', 'Supplier column'), colSelect('amount', 'Amount column'), colSelect('date', 'Date column', true), colSelect('invoice', 'Invoice number column', true),
+      el('label', null, 'Decimal convention', decSel), el('label', null, 'Date order', ordSel));
+    for (const s of grid.querySelectorAll('select')) s.addEventListener('change', refresh);
+    const table = el('table', { class: 'grid compact', id: 'preview-table' },
+      el('caption', { text: 'The first rows as they will be read' }),
+      el('thead', null, el('tr', null, ['Line', 'Supplier', 'Amount read', 'Date read', 'Outcome'].map((h) => el('th', { text: h })))),
+      el('tbody', null, p.rows.map((r) => el('tr', { class: r.excluded ? 'excluded' : null }, el('td', { class: 'num', text: r.line }), el('td', { text: r.supplier || '' }),
+        el('td', { class: 'num', text: r.amount || (r.amount_readings.length ? r.amount_readings.join(' or ') : '') }),
+        el('td', { text: r.date || (r.date_readings.length ? r.date_readings.join(' or ') : '') }), el('td', { text: r.exclusion || 'analysed' })))));
+    box.replaceChildren(el('h2', { text: 'Check how the file will be read' }),
+      el('p', { id: 'sniffed', text: `${file.name}: ${p.encoding}, cells separated by ${({ ',': 'commas', ';': 'semicolons', '\t': 'tabs', '|': 'vertical bars' })[p.delimiter] || JSON.stringify(p.delimiter)}, header on line ${p.header_line}.` }),
+      ...p.warnings.map((w) => el('p', { class: 'small', text: w })), ...questions, grid, el('p', null, go), el('div', { class: 'table-wrap short' }, table));
+    box.hidden = false;
+  }
+  $('file').addEventListener('change', (e) => { if (e.target.files[0]) { state.mapping = null; mapping(e.target.files[0]); } });
   $('demo').addEventListener('click', () => {
     const d = $('dd-demo');
+    state.mapping = null;
+    $('mapping').hidden = true;
     open(null, { b64: d.textContent.trim(), name: d.dataset.name });
   });
   $('cancel').addEventListener('click', () => worker.postMessage({ cmd: 'cancel' }));
@@ -183,7 +242,7 @@
   drop.addEventListener('drop', (e) => {
     e.preventDefault(); drop.classList.remove('over');
     const f = e.dataTransfer.files[0];
-    if (f) open(f);
+    if (f) { state.mapping = null; mapping(f); }
   });
   drop.addEventListener('keydown', (e) => { if (e.key === 'Enter' || e.key === ' ') { e.preventDefault(); $('file').click(); } });
 

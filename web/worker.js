@@ -42,6 +42,10 @@ async function openLedger(id, blob, name, options, settings) {
 }
 
 const handlers = {
+  async preview({ id, file, options }) {
+    const head = new Uint8Array(await file.slice(0, 65536).arrayBuffer());
+    post({ id, ok: true, value: wasm_bindgen.preview(head, options || {}) });
+  },
   async open({ id, file, demo, options, settings }) {
     if (demo) {
       const blob = await demoBlob(demo.b64);

@@ -307,6 +307,17 @@ fn slim(s: &mut serde_json::Value) {
     }
 }
 
+/// The mapping step: sniff the first 64 KiB of a file and show the first rows as they would be
+/// read. Returns `{ok: true, preview}` or `{ok: false, error, message}`.
+#[wasm_bindgen]
+pub fn preview(head: &[u8], options: JsValue) -> Result<JsValue, JsValue> {
+    let o = intake_options(options)?;
+    match digitdrift_core::intake::preview(head, &o) {
+        Ok(p) => to_js(&serde_json::json!({"ok": true, "preview": p})),
+        Err(e) => to_js(&serde_json::json!({"ok": false, "error": e, "message": e.to_string()})),
+    }
+}
+
 /// Version string shown in the page footer.
 #[wasm_bindgen]
 pub fn version() -> String {

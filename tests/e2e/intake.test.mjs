@@ -1,0 +1,79 @@
+// Intake in the page: a Windows-1252, semicolon-separated, decimal-comma export with a report
+// preamble and a totals line is dropped on the page; the mapping step must show how it will be
+// read (encoding, separator, header line, exact amounts), and the row accounting after screening
+// must match what was written. Windows-1252 bytes for ü/ß/é follow the WHATWG Encoding Standard.
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { writeFileSync, mkdtempSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { launch, openPage, networkRequests, screenshot } from './browser.mjs';
+
+let browser;
+before(async () => { browser = await launch(); });
+after(async () => { await browser?.close(); });
+
+function ledger() {
+  const suppliers = ['Müller Tierbedarf GmbH', 'Straße & Söhne KG', 'Café Vétérinaire SARL'];
+  const lines = ['Kreditorenliste Praxis Nord', 'Zeitraum 01.01.2024 - 31.12.2024', '', 'Lieferant;Belegdatum;Belegnummer;Betrag'];
+  let x = 7, total = 0;
+  const rnd = () => { x = (x * 48271) % 2147483647; return x / 2147483647; };
+  for (let i = 0; i < 600; i++) {
+    const cents = Math.round(Math.pow(10, 1 + 3 * rnd()) * 100);
+    total += cents;
+    const euros = Math.floor(cents / 100).toString().replace(/\B(?=(\d{3})+(?!\d))/g, '.');
+    const day = String(1 + (i % 28)).padStart(2, '0'), month = String(1 + (i % 12)).padStart(2, '0');
+    lines.push(`${suppliers[i % 3]};${day}.${month}.2024;R-${1000 + i};${euros},${String(cents % 100).padStart(2, '0')}`);
+  }
+  lines.push('Gutschrift Müller;15.06.2024;G-1;-120,00'.replace('Gutschrift Müller', suppliers[0]));
+  lines.push(';;;');
+  lines.push(`Summe;;;${Math.floor(total / 100)},${String(total % 100).padStart(2, '0')}`);
+  return Buffer.from(lines.join('\r\n') + '\r\n', 'latin1');
+}
+
+test('Windows-1252 decimal-comma export with preamble: mapping preview and accounting', async () => {
+  const dir = mkdtempSync(join(tmpdir(), 'dd-'));
+  const file = join(dir, 'kreditoren-2024.csv');
+  writeFileSync(file, ledger());
+  const { page, requests, errors } = await openPage(browser);
+  await page.setInputFiles('#file', file);
+  await page.waitForSelector('#preview-table tbody tr');
+  const sniffed = await page.$eval('#sniffed', (e) => e.textContent);
+  assert.match(sniffed, /windows-1252/i);
+  assert.match(sniffed, /semicolons/);
+  assert.match(sniffed, /header on line 4/);
+  const first = await page.$$eval('#preview-table tbody tr:first-child td', (t) => t.map((x) => x.textContent));
+  assert.equal(first[1], 'Müller Tierbedarf GmbH');
+  assert.match(first[2], /^\d+\.\d\d$/, 'amount read exactly with a decimal point');
+  assert.equal(first[3], '2024-01-01');
+  assert.equal(await page.$eval('#map-supplier', (s) => s.selectedOptions[0].textContent), '1: Lieferant');
+  assert.equal(await page.$eval('#map-amount', (s) => s.selectedOptions[0].textContent), '4: Betrag');
+  await screenshot(page, 'view-mapping');
+  await page.click('#map-go');
+  await page.waitForSelector('body[data-loaded="yes"]', { timeout: 60_000 });
+  const rows = await page.evaluate(() => window.digitdrift.report.rows);
+  // 600 invoices + 1 credit note + 1 blank row + 1 totals line = 603 data rows.
+  assert.equal(rows.read, rows.analysed + rows.excluded);
+  assert.equal(rows.read, 603);
+  const by = Object.fromEntries(rows.exclusions.map((e) => [e.reason, e.count]));
+  assert.equal(by.credit_note, 1);
+  assert.equal(by.totals_line, 1);
+  const below = by.below_minimum || 0;
+  assert.equal(rows.analysed, 600 - below);
+  const names = await page.evaluate(() => window.digitdrift.report.suppliers.map((s) => s.name).sort());
+  assert.deepEqual(names, ['Café Vétérinaire SARL', 'Müller Tierbedarf GmbH', 'Straße & Söhne KG']);
+  await page.click('#nav a[data-view="ledger"]');
+  assert.match(await page.$eval('#accounting', (e) => e.textContent), /603 data rows read/);
+  assert.deepEqual(networkRequests(requests), []);
+  assert.deepEqual(errors, []);
+});
+
+test('a workbook dropped by mistake gets a clear message', async () => {
+  const dir = mkdtempSync(join(tmpdir(), 'dd-'));
+  const file = join(dir, 'ledger.xlsx');
+  writeFileSync(file, Buffer.concat([Buffer.from('PK\u0003\u0004', 'latin1'), Buffer.alloc(200, 1)]));
+  const { page } = await openPage(browser);
+  await page.setInputFiles('#file', file);
+  await page.waitForSelector('#intake-msg:not([hidden])');
+  assert.match(await page.$eval('#intake-msg', (e) => e.textContent), /export it as CSV/i);
+});
