@@ -465,9 +465,9 @@ fn invented_amount(rng: &mut DemoRng) -> i64 {
     while digits.len() < whole_digits {
         let prev = *digits.last().unwrap();
         let pos = digits.len();
-        let d = if pos >= 2 && rng.chance(if pos == 2 { 400 } else { 600 }) {
+        let d = if pos >= 2 && prev != 0 && rng.chance(if pos == 2 { 400 } else { 600 }) {
             0
-        } else if pos >= 2 && rng.chance(300) {
+        } else if pos >= 2 && prev != 5 && rng.chance(300) {
             5
         } else {
             // Any digit but the one just written.
@@ -910,4 +910,61 @@ pub fn truth_markdown(l: &DemoLedger) -> String {
         l.data_rows, l.suppliers, m.credit_notes, m.zero_amounts, m.below_ten, m.blank_lines
     ));
     s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn civil_dates_match_python_datetime() {
+        // Reference: Python `date(y, m, d).toordinal() - date(1970, 1, 1).toordinal()` and
+        // `date.weekday()` (0 = Monday), run by hand when writing this test.
+        for (ymd, days, wd) in [((2021, 1, 1), 18_628, 4), ((2025, 12, 31), 20_453, 2), ((2000, 2, 29), 11_016, 1), ((1969, 12, 31), -1, 2), ((2024, 3, 1), 19_783, 4)] {
+            assert_eq!(days_from_civil(ymd.0, ymd.1, ymd.2), days);
+            assert_eq!(civil_from_days(days), ymd);
+            assert_eq!(weekday(days), wd);
+        }
+        for d in days_from_civil(2020, 1, 1)..days_from_civil(2027, 1, 1) {
+            let (y, m, dd) = civil_from_days(d);
+            assert_eq!(days_from_civil(y, m, dd), d);
+        }
+    }
+
+    #[test]
+    fn invented_amounts_have_the_intended_habits() {
+        let mut rng = DemoRng::stream(99);
+        let mut first = [0u32; 10];
+        for _ in 0..20_000 {
+            let a = invented_amount(&mut rng);
+            let whole = (a / 100).to_string();
+            assert!((3..=4).contains(&whole.len()), "{a}");
+            let b = whole.as_bytes();
+            assert!(b.windows(2).all(|w| w[0] != w[1]), "repeated digit in {whole}");
+            first[(b[0] - b'0') as usize] += 1;
+        }
+        // Benford gives ~30 % leading 1s; these invented amounts must have far fewer, and more
+        // 3-7 than 1-2 (the design of the fabrication, not an outside figure).
+        assert!(first[1] < 20_000 / 10);
+        assert!(first[3..=7].iter().sum::<u32>() > 3 * (first[1] + first[2]));
+    }
+
+    #[test]
+    fn money_text_is_plain() {
+        assert_eq!(format_pence(-123_456), "-1234.56");
+        assert_eq!(format_pence(5), "0.05");
+        assert_eq!(money(123_456_789), "1,234,567.89");
+        assert_eq!(add_vat(1_000, 20), 1_200);
+        assert_eq!(add_vat(1_003, 20), 1_204); // 200.6p rounds to 201p
+    }
+
+    #[test]
+    fn below_is_within_range() {
+        let mut r = DemoRng::new(1);
+        for n in [1u64, 2, 3, 7, 1000, u64::MAX / 3 + 1] {
+            for _ in 0..200 {
+                assert!(r.below(n) < n);
+            }
+        }
+    }
 }
