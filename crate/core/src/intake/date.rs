@@ -12,7 +12,7 @@
 //!   common practice, no source).
 //! - Spreadsheet serial dates: day 1 = 1900-01-01 with the 1900 leap-year bug (serial 60 is the
 //!   non-existent 1900-02-29), so for serials after 60 the date is 1899-12-30 + serial
-//!   (common practice). Only serials 20000..=80000 (1954-10-03 .. 2119-01-10) are taken as
+//!   (common practice). Only serials 20000..=80000 (1954-10-03 .. 2119-01-11) are taken as
 //!   dates, so that amounts or invoice numbers are not mistaken for dates.
 
 use super::DateOrder;
@@ -225,5 +225,18 @@ mod tests {
         assert_eq!(iso("1234.56", None), None);
         assert_eq!(iso("Acme", None), None);
         assert_eq!(iso("05/05/2024", None).as_deref(), Some("2024-05-05"));
+    }
+
+    #[test]
+    fn against_python_datetime() {
+        // Reference values from Python's datetime (general-purpose library), computed as
+        // date(1899,12,30) + timedelta(n) and (date(y,m,d) - date(1970,1,1)).days.
+        for (serial, iso_text) in [(45292, "2024-01-01"), (45358, "2024-03-07"), (45658, "2025-01-01"), (20000, "1954-10-03"), (80000, "2119-01-11")] {
+            assert_eq!(format_date(from_serial(serial)), iso_text, "{serial}");
+            assert_eq!(iso(&serial.to_string(), None).as_deref(), Some(iso_text));
+        }
+        assert_eq!(days_from_civil(2024, 3, 7), 19789);
+        assert_eq!(days_from_civil(1999, 12, 31), 10956);
+        assert_eq!(days_from_civil(2000, 2, 29), 11016);
     }
 }
