@@ -65,6 +65,23 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
         return Err("screen takes exactly one FILE".into());
     };
     let min = opts.min_amount;
+    // A digit-count table (supplier, first_two, invoices, amount) made by an SQL engine.
+    if file != "-" {
+        use std::io::Read;
+        let mut head = vec![0u8; 4096];
+        let k = std::fs::File::open(file).and_then(|mut f| f.read(&mut head)).map_err(|e| format!("{file}: {e}"))?;
+        if digitdrift_core::counts::is_count_table(&head[..k]) {
+            let bytes = std::fs::read(file).map_err(|e| format!("{file}: {e}"))?;
+            let t = digitdrift_core::counts::read(&bytes).map_err(|e| format!("{file}: {e}"))?;
+            let rep = digitdrift_core::counts::screen(&t, &sopts);
+            if json {
+                println!("{}", serde_json::to_string_pretty(&rep).map_err(|e| e.to_string())?);
+            } else {
+                print!("{}", report::render_text(&rep));
+            }
+            return Ok(0);
+        }
+    }
     let res = read_ledger(file, opts)?;
     let rep = report::screen(&res.ledger, &res.info, min, &sopts);
     if json {

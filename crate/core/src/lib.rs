@@ -21,6 +21,7 @@ pub mod calibrate;
 pub mod monitor;
 pub mod report;
 pub mod export;
+pub mod counts;
 pub mod rng;
 
 pub use amount::Amount;

@@ -148,7 +148,7 @@ fn first_two_counts(s: &SupplierResult, invs: &[&Invoice]) -> Vec<u64> {
 }
 
 /// Calibrate the suppliers (in place) and summarise.
-fn calibrate(suppliers: &mut [SupplierResult], counts: &[Vec<u64>], copts: &CalibrationOptions) -> CalibrationSummary {
+pub fn calibrate_list(suppliers: &mut [SupplierResult], counts: &[Vec<u64>], copts: &CalibrationOptions) -> CalibrationSummary {
     let mut cal = Calibrator::new(copts.clone());
     let inputs: Vec<SupplierInput> = suppliers
         .iter()
@@ -196,6 +196,21 @@ fn calibrate(suppliers: &mut [SupplierResult], counts: &[Vec<u64>], copts: &Cali
     }
 }
 
+/// Most deviating first: by calibrated p-value (else chi-square p), then MAD, then name.
+pub fn rank(suppliers: &mut [SupplierResult]) {
+    suppliers.sort_by(|a, b| {
+        rank_key(a)
+            .partial_cmp(&rank_key(b))
+            .unwrap_or(std::cmp::Ordering::Equal)
+            .then(mad_of(b).partial_cmp(&mad_of(a)).unwrap_or(std::cmp::Ordering::Equal))
+            .then(a.name.cmp(&b.name))
+    });
+}
+
+fn mad_of(s: &SupplierResult) -> f64 {
+    s.tests.first_two.as_ref().map_or(0.0, |t| t.mad)
+}
+
 fn rank_key(s: &SupplierResult) -> f64 {
     s.tests
         .first_two
@@ -219,13 +234,8 @@ pub fn screen(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &Scr
             r
         })
         .collect();
-    let calibration = opts.calibration.as_ref().map(|c| calibrate(&mut suppliers, &counts, c));
-    suppliers.sort_by(|a, b| {
-        rank_key(a)
-            .partial_cmp(&rank_key(b))
-            .unwrap_or(std::cmp::Ordering::Equal)
-            .then(a.name.cmp(&b.name))
-    });
+    let calibration = opts.calibration.as_ref().map(|c| calibrate_list(&mut suppliers, &counts, c));
+    rank(&mut suppliers);
     let all: Vec<&Invoice> = ledger.invoices.iter().collect();
     let credits: Vec<&Invoice> = ledger.credit_notes.iter().collect();
     ScreenReport {
