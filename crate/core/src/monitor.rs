@@ -570,7 +570,8 @@ pub struct FabricatedEstimate {
     pub window_from_date: Option<String>,
     pub window_invoices: u64,
     pub window_paid: Amount,
-    /// The even spread used: over the supplier's own range of amounts in the window.
+    /// The even spread used: over the supplier's own range of amounts in the window (see
+    /// `own_range_fit`: quantile range of highest likelihood).
     pub even_spread_low: Amount,
     pub even_spread_high: Amount,
     /// Maximum-likelihood share of evenly spread amounts, with profile-likelihood interval.
@@ -721,6 +722,30 @@ fn cusum_onset(fam: &Family, k: usize, bins: &[usize]) -> usize {
     start
 }
 
+/// The supplier's own range for the even spread: among ranges between low and high quantiles
+/// of the window's amounts (low 0, 1, 2, 5, 10 %; high 90, 95, 98, 99, 100 %), the one whose
+/// fitted mixture has the highest likelihood (a profile likelihood over the range; a few
+/// stray amounts outside the fabricated range then do not stretch it). Returns the range, its
+/// first-two distribution and the share estimate at that range.
+fn own_range_fit(counts: &[u64; BINS], sorted: &[i64], conf: f64) -> (i64, i64, [f64; BINS], ShareEstimate) {
+    let p = benford::first_two();
+    let q = |f: f64| sorted[((sorted.len() - 1) as f64 * f).round() as usize];
+    let mut best: Option<(f64, i64, i64, [f64; BINS], ShareEstimate)> = None;
+    for lf in [0.0, 0.01, 0.02, 0.05, 0.10] {
+        for hf in [0.90, 0.95, 0.98, 0.99, 1.0] {
+            let (lo, hi) = (q(lf), q(hf));
+            let u = even_spread_first_two(Amount(lo).to_f64(), Amount(hi).to_f64());
+            let e = fabricated_share(counts, &u, conf);
+            let ll = loglik(counts, &p, &u, e.mle);
+            if best.as_ref().is_none_or(|b| ll > b.0) {
+                best = Some((ll, lo, hi, u, e));
+            }
+        }
+    }
+    let (_, lo, hi, u, e) = best.expect("non-empty window");
+    (lo, hi, u, e)
+}
+
 /// Run both statistics over every supplier of the ledger.
 pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
     let fam = Family::standard();
@@ -827,16 +852,16 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
             let from = if which == "since_start" { 0 } else { cusum_onset(&fam, lead_k, &bins_usize) };
             let window = &order_buf[from..];
             let mut counts = [0u64; BINS];
-            let (mut lo, mut hi, mut paid) = (i64::MAX, i64::MIN, Amount::ZERO);
+            let mut paid = Amount::ZERO;
+            let mut sorted: Vec<i64> = Vec::with_capacity(window.len());
             for &i in window {
                 let a = inv(i).amount;
                 counts[first_two_bin(a).unwrap_or(0)] += 1;
-                lo = lo.min(a.0);
-                hi = hi.max(a.0);
                 paid = paid.saturating_add(a);
+                sorted.push(a.0);
             }
-            let u = even_spread_first_two(Amount(lo).to_f64(), Amount(hi).to_f64());
-            let share = fabricated_share(&counts, &u, opts.confidence);
+            sorted.sort_unstable();
+            let (lo, hi, u, share) = own_range_fit(&counts, &sorted, opts.confidence);
             let p = benford::first_two();
             let expected = |lam: f64| -> f64 {
                 window
