@@ -183,6 +183,7 @@
     const res = await call('preview', { file, options: options || intakeOptions() });
     const box = $('mapping');
     if (!res.ok) { box.hidden = true; message(res.message, 'error'); return; }
+    if (res.counts) { box.hidden = true; open(file); return; }
     const p = res.preview;
     const colSelect = (key, label, optional) => {
       const sel = el('select', { id: 'map-' + key, 'aria-label': label },
@@ -514,6 +515,7 @@
   async function renderReplay(force) {
     const body = $('replay-body');
     if (!state.report) { body.replaceChildren(el('p', { text: 'Open a ledger first.' })); return; }
+    if (state.report.from_counts) { body.replaceChildren(el('p', { text: 'A digit-count table has no dates per invoice: replay needs the ledger itself.' })); return; }
     if (body.dataset.ready === 'yes' && !force) return;
     const dates = state.report.suppliers.map((s) => [s.first_date, s.last_date]).flat().filter(Boolean).sort();
     const first = dates[0], last = dates[dates.length - 1];

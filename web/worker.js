@@ -51,6 +51,16 @@ const handlers = {
       const blob = await demoBlob(demo.b64);
       return openLedger(id, blob, demo.name, options, settings);
     }
+    const head = new Uint8Array(await file.slice(0, 4096).arrayBuffer());
+    if (wasm_bindgen.preview(head, {}).counts) {
+      // A digit-count table from an SQL engine: small by nature, read whole.
+      session = new wasm_bindgen.Session({});
+      const bytes = new Uint8Array(await file.arrayBuffer());
+      const screen = session.screenCounts(bytes, settings || {});
+      if (screen.error) { post({ id, ok: true, value: { name: file.name, intake: { ok: false, message: screen.error, error: { kind: 'counts' } } } }); return; }
+      post({ id, ok: true, value: { name: file.name, size: file.size, intake: { ok: true, rows: screen.rows }, screen, ms: 0, sha256: session.fingerprint() } });
+      return;
+    }
     return openLedger(id, file, file.name, options, settings);
   },
   async rescreen({ id, settings }) { post({ id, ok: true, value: session.screen(settings || {}) }); },

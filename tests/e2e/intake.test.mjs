@@ -77,3 +77,25 @@ test('a workbook dropped by mistake gets a clear message', async () => {
   await page.waitForSelector('#intake-msg:not([hidden])');
   assert.match(await page.$eval('#intake-msg', (e) => e.textContent), /export it as CSV/i);
 });
+
+test('a digit-count table from an SQL engine is screened without the ledger', async () => {
+  // Counts proportional to Benford's first-two probabilities log10(1 + 1/d) for one supplier,
+  // all in one bin for another: the first must not stand out, the second must.
+  const lines = ['supplier,first_two,invoices,amount'];
+  for (let d = 10; d <= 99; d++) {
+    const n = Math.round(3000 * Math.log10(1 + 1 / d));
+    lines.push(`Benford Like Ltd,${d},${n},${(n * d * 10.5).toFixed(2)}`);
+  }
+  lines.push('One Price Co,45,400,180000.00');
+  const dir = mkdtempSync(join(tmpdir(), 'dd-'));
+  const file = join(dir, 'counts.csv');
+  writeFileSync(file, lines.join('\n') + '\n');
+  const { page, requests, errors } = await openPage(browser);
+  await page.setInputFiles('#file', file);
+  await page.waitForSelector('body[data-loaded="yes"]', { timeout: 60_000 });
+  const v = await page.evaluate(() => Object.fromEntries(window.digitdrift.report.suppliers.map((s) => [s.name, s.verdict])));
+  assert.equal(v['One Price Co'], 'deviates');
+  assert.equal(v['Benford Like Ltd'], 'consistent');
+  assert.deepEqual(networkRequests(requests), []);
+  assert.deepEqual(errors, []);
+});

@@ -134,6 +134,28 @@ impl Session {
         to_js(&s.ok_or_else(|| err("no such supplier"))?)
     }
 
+    /// Screen a digit-count table (`supplier, first_two, invoices, amount`) made by an SQL
+    /// engine instead of a ledger. Returns the same summary as `screen`, or `{error}`.
+    #[wasm_bindgen(js_name = screenCounts)]
+    pub fn screen_counts(&mut self, bytes: &[u8], settings: JsValue) -> Result<JsValue, JsValue> {
+        self.fingerprint.update(bytes);
+        self.intake = None;
+        let t = match digitdrift_core::counts::read(bytes) {
+            Ok(t) => t,
+            Err(e) => return to_js(&serde_json::json!({"error": e})),
+        };
+        let rep = digitdrift_core::counts::screen(&t, &screen_options(settings)?);
+        let mut v = serde_json::to_value(&rep).map_err(err)?;
+        for s in v["suppliers"].as_array_mut().into_iter().flatten() {
+            slim(s);
+        }
+        slim(&mut v["whole_file"]);
+        slim(&mut v["credit_notes"]);
+        v["from_counts"] = serde_json::Value::Bool(true);
+        self.report = Some(rep);
+        to_js(&v)
+    }
+
     /// SHA-256 of the file as read (hex).
     pub fn fingerprint(&self) -> String {
         self.fingerprint.hex()
@@ -311,6 +333,9 @@ fn slim(s: &mut serde_json::Value) {
 /// read. Returns `{ok: true, preview}` or `{ok: false, error, message}`.
 #[wasm_bindgen]
 pub fn preview(head: &[u8], options: JsValue) -> Result<JsValue, JsValue> {
+    if digitdrift_core::counts::is_count_table(head) {
+        return to_js(&serde_json::json!({"ok": true, "counts": true}));
+    }
     let o = intake_options(options)?;
     match digitdrift_core::intake::preview(head, &o) {
         Ok(p) => to_js(&serde_json::json!({"ok": true, "preview": p})),
