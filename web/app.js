@@ -307,7 +307,7 @@
     box.replaceChildren(
       el('p', { class: 'summary', id: 'alarm-summary' }, el('strong', { text: `${c.alarms} of ${n} suppliers stand out` }),
         ` at ${(100 * c.confidence).toFixed(1)} % confidence after the ${c.correction === 'fdr' ? 'false-discovery-rate (Benjamini–Hochberg)' : c.correction} correction across the list; ${c.too_few} ha${c.too_few === 1 ? 's' : 've'} too few invoices for a verdict. Seed ${c.seed}, ${fmtInt(c.sims)} simulated honest suppliers per invoice count.`),
-      canvas,
+      canvas, pngButton(canvas, 'suppliers-overview'),
       el('p', { class: 'legend-note', text: 'Each dot is a supplier (red: stands out). The curves are the MAD that honest suppliers of each size exceed only 5 % (or 0.1 %) of the time in simulation: a fixed cut-off would be a flat line, which flags most large honest suppliers and misses small manipulated ones. Click a dot to select that supplier.' }));
     drawOverview();
     canvas.addEventListener('click', (e) => {
@@ -446,6 +446,16 @@
     const n = state.pull.size;
     const a = document.querySelector('#nav a[data-view="paper"]');
     a.textContent = '6 Working paper' + (n ? ` (${n} to pull)` : '');
+  }
+
+  // A button that saves a chart as a PNG file (canvas.toBlob; nothing leaves the machine).
+  function pngButton(canvas, name) {
+    return el('button', { type: 'button', class: 'btn alt small png', onclick: () => canvas.toBlob((b) => {
+      const url = URL.createObjectURL(b);
+      const a = el('a', { href: url, download: name.replace(/[^\w.-]+/g, '-') + '.png' });
+      document.body.append(a); a.click(); a.remove();
+      setTimeout(() => URL.revokeObjectURL(url), 10000);
+    }, 'image/png') }, 'Save chart as PNG');
   }
 
   // ---------- working paper: exports and a printable report ----------
@@ -618,7 +628,7 @@
       const t = d[key];
       if (!t) continue;
       const c = el('canvas', { class: 'chart', id: 'chart-' + key, role: 'img', 'aria-label': title + ' chart; the table below gives the same numbers' });
-      const fig = el('figure', null, c, el('figcaption', { class: 'small' }, `${title}: MAD ${t.mad.toFixed(5)}` + (t.conformity ? ` (${t.conformity.label})` : '') + ` · χ² ${t.chi_square.toFixed(1)}, ${t.df} df, p ${fmtP(t.p_value)} · KS ${t.ks.toFixed(4)} (5 % limit ${t.ks_critical_5pct.toFixed(4)})`),
+      const fig = el('figure', null, c, pngButton(c, `${d.name}-${key}`), el('figcaption', { class: 'small' }, `${title}: MAD ${t.mad.toFixed(5)}` + (t.conformity ? ` (${t.conformity.label})` : '') + ` · χ² ${t.chi_square.toFixed(1)}, ${t.df} df, p ${fmtP(t.p_value)} · KS ${t.ks.toFixed(4)} (5 % limit ${t.ks_critical_5pct.toFixed(4)})`),
         digitTable(t));
       charts.append(fig);
       const draw = (sel) => {
