@@ -19,6 +19,7 @@ use super::DateOrder;
 use crate::ledger::NO_DATE;
 
 /// Days since 1970-01-01 for a proleptic Gregorian date (Howard Hinnant's days_from_civil).
+#[inline]
 pub fn days_from_civil(y: i32, m: u32, d: u32) -> i32 {
     let y = if m <= 2 { y - 1 } else { y };
     let era = if y >= 0 { y } else { y - 399 } / 400;
@@ -52,10 +53,12 @@ pub fn format_date(days: i32) -> String {
     format!("{y:04}-{m:02}-{d:02}")
 }
 
+#[inline]
 fn is_leap(y: i32) -> bool {
     (y % 4 == 0 && y % 100 != 0) || y % 400 == 0
 }
 
+#[inline]
 fn days_in_month(y: i32, m: u32) -> u32 {
     match m {
         1 | 3 | 5 | 7 | 8 | 10 | 12 => 31,
@@ -66,6 +69,7 @@ fn days_in_month(y: i32, m: u32) -> u32 {
     }
 }
 
+#[inline]
 fn valid(y: i32, m: u32, d: u32) -> Option<i32> {
     if (1..=12).contains(&m) && d >= 1 && d <= days_in_month(y, m) && (1000..=9999).contains(&y) {
         Some(days_from_civil(y, m, d))
@@ -100,6 +104,23 @@ pub enum DateCell {
 
 /// Read a date cell. `order` is the column's day/month order when known. None: not a date.
 pub fn parse_date(cell: &[u8], order: Option<DateOrder>) -> Option<DateCell> {
+    // Fast path for the two commonest shapes, `yyyy-mm-dd` and `dd.mm.yyyy`.
+    if cell.len() == 10 {
+        let c = cell;
+        let dg = |i: usize| c[i].wrapping_sub(b'0') as u32;
+        let all = |idx: &[usize]| idx.iter().all(|&i| c[i].is_ascii_digit());
+        if c[4] == b'-' && c[7] == b'-' && all(&[0, 1, 2, 3, 5, 6, 8, 9]) {
+            let y = (dg(0) * 1000 + dg(1) * 100 + dg(2) * 10 + dg(3)) as i32;
+            return valid(y, dg(5) * 10 + dg(6), dg(8) * 10 + dg(9)).map(|days| DateCell::Fixed { days, hint: Some(DateOrder::Ymd) });
+        }
+        if c[2] == b'.' && c[5] == b'.' && order != Some(DateOrder::Mdy) && all(&[0, 1, 3, 4, 6, 7, 8, 9]) {
+            let y = (dg(6) * 1000 + dg(7) * 100 + dg(8) * 10 + dg(9)) as i32;
+            let (d, m) = (dg(0) * 10 + dg(1), dg(3) * 10 + dg(4));
+            if let Some(days) = valid(y, m, d) {
+                return Some(DateCell::Fixed { days, hint: if order.is_some() { None } else { Some(DateOrder::Dmy) } });
+            }
+        }
+    }
     let s = super::amount::trim_cell(cell);
     // Drop a time part: after 'T' or a space following the date.
     let end = s.iter().position(|&b| b == b' ' || b == b'T').unwrap_or(s.len());

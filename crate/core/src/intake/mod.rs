@@ -396,6 +396,7 @@ struct Run {
     recoded_names: u64,
     decimal_votes: (u64, u64),
     total_prefixes: Vec<[u8; 3]>,
+    total_first: [bool; 256],
     preview: Option<Vec<PreviewRow>>,
 }
 
@@ -730,6 +731,7 @@ impl Run {
             recoded_names: 0,
             decimal_votes: (0, 0),
             total_prefixes: Vec::new(),
+            total_first: [false; 256],
             preview: if preview { Some(Vec::new()) } else { None },
         };
         run.decode(&raw[bom..], eof);
@@ -738,6 +740,9 @@ impl Run {
         run.pos = run.setup.body_start;
         run.line = run.setup.body_line;
         run.total_prefixes = columns::total_prefixes();
+        for p in &run.total_prefixes {
+            run.total_first[p[0] as usize] = true;
+        }
         if opts.decimal.is_none() {
             run.sniff_conventions(eof);
         }
@@ -850,7 +855,7 @@ impl Run {
             return false;
         }
         let p = [first[0].to_ascii_lowercase(), first[1].to_ascii_lowercase(), first[2].to_ascii_lowercase()];
-        if !self.total_prefixes.contains(&p) {
+        if !self.total_first[p[0] as usize] || !self.total_prefixes.contains(&p) {
             return false;
         }
         let f = columns::fold(&String::from_utf8_lossy(first));
