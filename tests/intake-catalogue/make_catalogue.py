@@ -178,6 +178,10 @@ case("29_dates_ambiguous", "Supplier,Date,Amount\nA,03/04/2024,12.00\nA,05/06/20
 case("30_dates_ambiguous_given", "Supplier,Date,Amount\nA,03/04/2024,12.00\nA,05/06/2024,13.00\n", [
     ("opt_date_order", "mdy"), ("invoice", "2 12.00 2024-03-04"), ("date_order", "mdy")],
     comment="same file with the order given")
+case("30b_dates_ymd_given", "Supplier,Date,Amount\nA,03/04/2024,12.00\nA,2024-06-05,13.00\n", [
+    ("opt_date_order", "ymd"), ("invoice", "2 12.00 -"), ("invoice", "3 13.00 2024-06-05"), ("date_order", "ymd"),
+    ("warning_contains", "1 rows have a date")],
+    comment="year-first asked for: a day/month date is unreadable rather than guessed")
 case("31_decimal_ambiguous", "Supplier;Amount\nA;1,234\nB;12,500\nC;100,250\n", [
     ("error", "ambiguous_decimal"), ("message_contains", "--decimal")],
     comment="every amount like 1,234: thousands or decimals cannot be told")

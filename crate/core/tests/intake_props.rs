@@ -335,3 +335,28 @@ proptest! {
         prop_assert_eq!(got, recs);
     }
 }
+
+/// Files larger than the 64 KiB sniff window: one chunk, chunks that end inside the window,
+/// and chunks that straddle its end all give the same ledger.
+#[test]
+fn large_file_chunkings_agree() {
+    let mut t = String::from("Lieferant;Beleg;Datum;Betrag\r\n");
+    for i in 0..4000u32 {
+        let name = ["\"Müller; Söhne\"", "Ærø", "\"Zoë \"\"Z\"\"\""][i as usize % 3];
+        t.push_str(&format!("{name};\"R{i}\r\nx\";{:02}.03.2024;{}.{:03},{:02}\r\n", 1 + i % 28, 1 + i % 9, i % 1000, i % 100));
+    }
+    let b = t.as_bytes();
+    assert!(b.len() > 100_000);
+    let whole = fingerprint(b, &[]);
+    assert!(!whole.starts_with("error"), "{whole}");
+    for cuts in [vec![65535], vec![65536], vec![65537], vec![1000, 70000], vec![30000, 64000, 66000], vec![b.len() - 1]] {
+        assert_eq!(fingerprint(b, &cuts), whole, "{cuts:?}");
+    }
+    let steps: Vec<usize> = (1..b.len()).step_by(4093).collect();
+    assert_eq!(fingerprint(b, &steps), whole);
+    let r = read_all(b, &IntakeOptions::default()).unwrap();
+    assert_eq!(r.ledger.accounting.read, 4000);
+    assert_eq!(r.ledger.suppliers.len(), 3);
+    // Each record spans two physical lines: record k starts on line 2 + 2k.
+    assert_eq!(r.ledger.invoices[3999].line, 2 + 2 * 3999);
+}

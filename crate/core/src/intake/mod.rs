@@ -273,11 +273,15 @@ impl Intake {
         let r = match &mut self.state {
             State::Failed(e) => return Err(e.clone()),
             State::Head(raw) => {
-                raw.extend_from_slice(chunk);
+                // Hold back only the sniff window; the rest of a big chunk streams on.
+                let take = chunk.len().min(SNIFF_LEN - raw.len());
+                raw.extend_from_slice(&chunk[..take]);
                 if raw.len() >= SNIFF_LEN {
                     let raw = std::mem::take(raw);
-                    Run::start(&raw, false, &self.opts, false).map(|r| {
+                    Run::start(&raw, false, &self.opts, false).and_then(|mut r| {
+                        let res = r.push(&chunk[take..], false);
                         self.state = State::Run(Box::new(r));
+                        res
                     })
                 } else {
                     Ok(())
@@ -376,6 +380,8 @@ struct Run {
     /// Day/month order for `a/b/y` cells, once known (Dmy or Mdy).
     order: Option<DateOrder>,
     saw_iso: bool,
+    /// `--date-order ymd` given: only year-first dates (and serials) are read.
+    ymd_only: bool,
     ledger: Ledger,
     raw_map: FxMap<Box<[u8]>, u32>,
     key_map: HashMap<String, u32>,
@@ -714,6 +720,7 @@ impl Run {
                 o => o,
             },
             saw_iso: false,
+            ymd_only: opts.date_order == Some(DateOrder::Ymd),
             ledger: Ledger::default(),
             raw_map: FxMap::default(),
             key_map: HashMap::new(),
@@ -765,7 +772,7 @@ impl Run {
                     _ => {}
                 }
             }
-            if let (Some(d), None) = (self.setup.mapping.date, self.order) {
+            if let (Some(d), None, false) = (self.setup.mapping.date, self.order, self.ymd_only) {
                 if let Some(c) = r.cells.get(d) {
                     match parse_date(c.as_bytes(), None) {
                         Some(DateCell::Fixed { hint: Some(DateOrder::Dmy), .. }) => dmy += 1,
@@ -947,7 +954,12 @@ impl Run {
         if let Some(dc) = m.date {
             let cell = trim_cell(rec.field(dc));
             if !cell.is_empty() {
-                match parse_date(cell, self.order) {
+                let parsed = match parse_date(cell, self.order) {
+                    // Year-first was asked for: other shapes are unreadable, not guessed.
+                    Some(DateCell::Fixed { hint: Some(DateOrder::Dmy | DateOrder::Mdy), .. }) | Some(DateCell::Ambiguous { .. }) if self.ymd_only => None,
+                    p => p,
+                };
+                match parsed {
                     Some(DateCell::Fixed { days, hint }) => {
                         date = days;
                         match hint {
@@ -1067,6 +1079,7 @@ impl Run {
         self.setup.mapping.date?;
         match self.order {
             Some(o) => Some(o),
+            None if self.ymd_only => Some(DateOrder::Ymd),
             None if self.date_alts.is_empty() && self.saw_iso => Some(DateOrder::Ymd),
             None => None,
         }
