@@ -21,9 +21,9 @@ const GUIDE_BITS: u32 = 12;
 const GUIDE: usize = 1 << GUIDE_BITS;
 const WALK: u8 = 0x80;
 
-/// Above this n the binomial chain is used (measured with `benches/calibrate.rs`: the two
-/// methods cost the same near n = 2,500 for 90 categories on x86_64).
-pub const GUIDE_MAX_N: u64 = 2_500;
+/// Above this n the binomial chain is used (measured with `benches/calibrate.rs` on a loaded
+/// 2-core x86_64: guide 7.7 us vs chain 21.6 us at n = 2,500; 25.7 vs 15.7 us at n = 10,000).
+pub const GUIDE_MAX_N: u64 = 6_000;
 
 /// A categorical distribution prepared for fast multinomial sampling.
 #[derive(Clone, Debug)]
