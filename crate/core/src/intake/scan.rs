@@ -6,22 +6,28 @@
 //! dropped, text after a closing quote is kept, a quote inside an unquoted field is literal.
 //! Line breaks are LF, CRLF or a lone CR (classic Mac exports).
 
-/// One record: unquoted field bytes back to back, and where each field ends.
+/// One record: field bytes in `buf`, field `i` at `spans[i]`. For a record without quotes
+/// `buf` is a verbatim copy of the record (one copy per record); once a quoted field is met,
+/// unquoted contents are appended field by field.
 #[derive(Default, Debug, Clone)]
 pub struct Record {
     pub buf: Vec<u8>,
-    pub ends: Vec<usize>,
+    pub spans: Vec<(usize, usize)>,
 }
 
 impl Record {
     #[inline]
     pub fn len(&self) -> usize {
-        self.ends.len()
+        self.spans.len()
+    }
+    #[inline]
+    pub fn is_empty(&self) -> bool {
+        self.spans.is_empty()
     }
     #[inline]
     pub fn field(&self, i: usize) -> &[u8] {
-        let s = if i == 0 { 0 } else { self.ends[i - 1] };
-        &self.buf[s..self.ends[i]]
+        let (s, e) = self.spans[i];
+        &self.buf[s..e]
     }
     /// Number of fields after dropping trailing fields that are empty or white space.
     pub fn width(&self) -> usize {
@@ -75,17 +81,34 @@ impl Scanner {
     /// will follow, so the end of `data` ends the record.
     pub fn scan(&self, data: &[u8], pos: usize, eof: bool, rec: &mut Record) -> Scan {
         rec.buf.clear();
-        rec.ends.clear();
+        rec.spans.clear();
         let n = data.len();
         let mut i = pos;
         let mut lines = 0u64;
+        // While `copying` is false, spans are offsets from `pos` into `data` and `buf` is
+        // filled with `data[pos..end]` once the record is complete.
+        let mut copying = false;
+        macro_rules! done {
+            ($next:expr, $lines:expr, $end:expr) => {{
+                if !copying {
+                    rec.buf.extend_from_slice(&data[pos..$end]);
+                }
+                return Scan::Done { next: $next, lines: $lines };
+            }};
+        }
         loop {
             // Quoted field?
             let mut j = i;
             while j < n && data[j] == b' ' {
                 j += 1;
             }
+            let mut start = None;
             if j < n && data[j] == b'"' {
+                if !copying {
+                    rec.buf.extend_from_slice(&data[pos..i]);
+                    copying = true;
+                }
+                start = Some(rec.buf.len());
                 j += 1;
                 loop {
                     let q = match data[j..].iter().position(|&b| b == b'"') {
@@ -97,7 +120,7 @@ impl Scanner {
                             // Unclosed quote at the end of the file: take the rest.
                             lines += count_breaks(&data[j..]);
                             rec.buf.extend_from_slice(&data[j..]);
-                            rec.ends.push(rec.buf.len());
+                            rec.spans.push((start.unwrap(), rec.buf.len()));
                             return Scan::Done { next: n, lines };
                         }
                     };
@@ -120,10 +143,18 @@ impl Scanner {
             while i < n && !self.special[data[i] as usize] {
                 i += 1;
             }
-            rec.buf.extend_from_slice(&data[st..i]);
-            rec.ends.push(rec.buf.len());
+            if copying {
+                let s0 = start.unwrap_or(rec.buf.len());
+                rec.buf.extend_from_slice(&data[st..i]);
+                rec.spans.push((s0, rec.buf.len()));
+            } else {
+                rec.spans.push((st - pos, i - pos));
+            }
             if i == n {
-                return if eof { Scan::Done { next: n, lines } } else { Scan::More };
+                if eof {
+                    done!(n, lines, n)
+                }
+                return Scan::More;
             }
             let b = data[i];
             if b == self.delim {
@@ -132,20 +163,27 @@ impl Scanner {
                     return Scan::More;
                 }
                 if i == n {
-                    rec.ends.push(rec.buf.len());
-                    return Scan::Done { next: n, lines };
+                    if copying {
+                        rec.spans.push((rec.buf.len(), rec.buf.len()));
+                    } else {
+                        rec.spans.push((i - pos, i - pos));
+                    }
+                    done!(n, lines, n)
                 }
                 continue;
             }
             if b == b'\n' {
-                return Scan::Done { next: i + 1, lines: lines + 1 };
+                done!(i + 1, lines + 1, i)
             }
             // CR: CRLF or a lone CR.
             if i + 1 < n {
                 let next = if data[i + 1] == b'\n' { i + 2 } else { i + 1 };
-                return Scan::Done { next, lines: lines + 1 };
+                done!(next, lines + 1, i)
             }
-            return if eof { Scan::Done { next: n, lines: lines + 1 } } else { Scan::More };
+            if eof {
+                done!(n, lines + 1, i)
+            }
+            return Scan::More;
         }
     }
 }
