@@ -5,7 +5,7 @@
 //!
 //! - **Null distributions** of MAD, chi-square, KS and max |Z| over honest (Benford) samples of
 //!   size n, by exact multinomial sampling ([`sample`]) with a seeded generator ([`crate::rng`]).
-//!   They are simulated once per n on a log-spaced grid (16 points per decade) and cached; for n
+//!   They are simulated once per n on a log-spaced grid (8 points per decade) and cached; for n
 //!   between grid points the two neighbouring tables are used with the statistic rescaled by
 //!   sqrt(n) (MAD and KS shrink like 1/sqrt(n); chi-square and max |Z| are scale-free) and the
 //!   results interpolated linearly in log n. Below [`EXACT_BELOW`] invoices every n gets its own
@@ -41,7 +41,7 @@ use std::collections::HashMap;
 /// Number of first-two-digit bins (10..=99).
 pub const BINS: usize = 90;
 /// Grid points per decade of n for the cached null tables.
-pub const GRID_PER_DECADE: u32 = 16;
+pub const GRID_PER_DECADE: u32 = 8;
 /// Every n below this gets its own null table instead of grid interpolation.
 pub const EXACT_BELOW: u64 = 100;
 /// Power-curve checkpoints per decade (a subset of the null grid).
@@ -269,7 +269,7 @@ impl NullTable {
     }
 }
 
-/// The grid point g's sample size: round(10^(g / 16)).
+/// The grid point g's sample size: round(10^(g / GRID_PER_DECADE)).
 pub fn grid_n(g: u32) -> u64 {
     libm::round(libm::pow(10.0, g as f64 / GRID_PER_DECADE as f64)) as u64
 }
@@ -700,8 +700,8 @@ mod tests {
 
     #[test]
     fn grid_brackets() {
-        assert_eq!(grid_n(16), 10);
-        assert_eq!(grid_n(48), 1000);
+        assert_eq!(grid_n(8), 10);
+        assert_eq!(grid_n(24), 1000);
         for n in [100u64, 101, 999, 1000, 1001, 54_321, 99_999] {
             let g = grid_floor(n);
             assert!(grid_n(g) <= n && n < grid_n(g + 1), "{n}");
