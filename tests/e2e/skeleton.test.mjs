@@ -21,13 +21,22 @@ test('demo ledger: table, drawn chart, drill-down, zero network requests', async
   await page.waitForSelector('#chart-first-two[data-drawn="yes"]');
   const px = await drawnPixels(page, '#chart-first-two');
   assert.ok(px > 5000, `chart drew only ${px} non-white pixels`);
-  // Click the bar for 10 (first bin) and expect the invoices behind it.
-  const box = await page.$eval('#chart-first-two', (c) => { const r = c.getBoundingClientRect(); return { x: r.x, y: r.y, w: r.width, h: r.height }; });
+    await page.$eval('#chart-first-two', (c) => c.scrollIntoView({ block: 'center' }));
+  const box = await page.$eval('#chart-first-two', (c) => { const r = c.getBoundingClientRect(); return { x: r.x, y: r.y, sx: c.width / r.width }; });
   const g = await page.evaluate(() => window.digitdrift.geometry['chart-first-two']);
-  const dpr = await page.evaluate(() => window.devicePixelRatio || 1);
-  const xPix = g.left + (10 - g.x_min) / (g.x_max - g.x_min) * (g.right - g.left);
-  await page.mouse.click(box.x + xPix / dpr, box.y + (g.bottom - 5) / dpr);
+  // Click the bar of the selected supplier's most frequent first-two digits (read off the
+  // report), and expect exactly that many invoices behind it.
+  const { bin, count } = await page.evaluate(() => {
+    const st = window.digitdrift;
+    const s = st.report.suppliers.find((x) => x.id === st.selected);
+    const c = s.first_two.counts;
+    const i = c.indexOf(Math.max(...c));
+    return { bin: 10 + i, count: c[i] };
+  });
+  const xPix = g.left + (bin - g.x_min) / (g.x_max - g.x_min) * (g.right - g.left);
+  await page.mouse.click(box.x + xPix / box.sx, box.y + (g.bottom - 5) / box.sx);
   await page.waitForSelector('#drill-table tbody tr');
+  assert.equal(await page.$$eval('#drill-table tbody tr', (t) => t.length), count, `invoices behind bar ${bin}`);
   const accounting = await page.$eval('#accounting', (e) => e.textContent);
   assert.match(accounting, /data rows read = .* analysed \+ .* excluded/);
   await screenshot(page, 'suppliers');

@@ -43,6 +43,9 @@ test('hostile names stay text; exports neutralised and identical; paper fingerpr
   const sha = createHash('sha256').update(text).digest('hex');
   const { page, requests, errors } = await openPage(browser);
   await page.setInputFiles('#file', file);
+  // A chosen file first gets the mapping step (columns, decimal convention, preview).
+  await page.waitForSelector('#map-go');
+  await page.click('#map-go');
   await page.waitForSelector('body[data-loaded="yes"]', { timeout: 120_000 });
   const names = await page.$$eval('#supplier-table tbody tr td:nth-child(2)', (t) => t.map((x) => x.textContent));
   assert.ok(names.includes('<img src=x onerror="window.__pwned=1">'), names.join(' | '));
