@@ -23,6 +23,7 @@ pub mod report;
 pub mod export;
 pub mod counts;
 pub mod rng;
+pub mod workload;
 
 pub use amount::Amount;
 pub use ledger::{Accounting, ExclusionReason, Invoice, Ledger};

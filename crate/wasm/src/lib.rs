@@ -2,6 +2,7 @@
 //! project touches wasm-bindgen, js-sys or web-sys. The Worker uses [`Session`] for the heavy
 //! work; the page uses the `draw_*` functions (plotters-canvas) on its own copy of the module.
 
+mod bench;
 mod chart;
 
 use digitdrift_core::intake::{DateOrder, DecimalConvention, Intake, IntakeOptions, IntakeResult};
