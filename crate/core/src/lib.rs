@@ -10,6 +10,7 @@
 //! - [`calibrate`] Monte Carlo null distributions per sample size, verdicts, invoices needed, FDR
 //! - [`monitor`]  anytime-valid evidence, change detection, replay, amount at risk
 //! - [`report`]   the screen result and its JSON / text renderings
+//! - [`trial`]    detection trial: invented invoices on a copy, sensitivity and false alarms
 
 pub mod amount;
 pub mod benford;
@@ -23,6 +24,7 @@ pub mod report;
 pub mod export;
 pub mod counts;
 pub mod rng;
+pub mod trial;
 pub mod workload;
 
 pub use amount::Amount;
