@@ -2,9 +2,8 @@
 //! native single-threaded; a 500-supplier ledger calibrated at 10,000 sims per size well under 1 s.
 
 use criterion::{criterion_group, criterion_main, BatchSize, Criterion, Throughput};
-use digitdrift_core::amount::Amount;
 use digitdrift_core::benford;
-use digitdrift_core::calibrate::{CalibrationOptions, Calibrator, Categorical, Moments, SupplierInput};
+use digitdrift_core::calibrate::{CalibrationOptions, Calibrator, Categorical, Moments};
 use digitdrift_core::rng::DetRng;
 
 fn sampling(c: &mut Criterion) {
@@ -46,23 +45,8 @@ fn sampling(c: &mut Criterion) {
     g.finish();
 }
 
-/// An invented 500-supplier ledger: sizes log-uniform 20..20,000, Benford-ish counts.
-fn ledger_inputs() -> Vec<SupplierInput> {
-    let p = benford::first_two();
-    let cat = Categorical::new(&p);
-    let mut rng = DetRng::seed_from_u64(99);
-    (0..500)
-        .map(|_| {
-            let n = libm::round(libm::exp(libm::log(20.0) + rng.next_f64() * libm::log(1000.0))) as u64;
-            let mut c = vec![0u64; 90];
-            cat.add(&mut rng, n, &mut c);
-            SupplierInput { first_two_counts: c, amount_min: Amount::from_units(12), amount_max: Amount::from_units(4_800) }
-        })
-        .collect()
-}
-
 fn ledger(c: &mut Criterion) {
-    let inputs = ledger_inputs();
+    let inputs = digitdrift_core::workload::ledger_500();
     let mut g = c.benchmark_group("ledger_500");
     g.sample_size(10);
     g.bench_function("null only, 10k sims", |b| {
