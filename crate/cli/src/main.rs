@@ -4,6 +4,7 @@
 mod args;
 mod common;
 mod screen;
+mod trial;
 mod watch;
 
 use std::process::ExitCode;
@@ -18,6 +19,13 @@ usage:
                          [--limits 5000;10000] [--confidence 0.95] [--seed N] [--sims 10000]
                          [--power 0.8] [--fabricated-share 0.3] [--deviation-model even|observed]
                          [--correction fdr|bonferroni|none] [--no-calibration] [--format json|text]
+  digitdrift watch FILE [--as-of YYYY-MM-DD] [--confidence 0.95] [--arl-years 100]
+                        [intake flags] [--format json|text]
+  digitdrift trial FILE --pattern even|below-limit|repeat|by-hand --share S [--from YYYY-MM-DD]
+                        [--replications 100] [--seed N] [--suppliers consistent|all|NAME;NAME]
+                        [--controls 0.5] [--range LOW;HIGH] [--limit X] [--repeated 3]
+                        [--levels 0.8,0.9,0.95,0.99,0.999] [intake and screen flags]
+                        [--calibration-seed 1] [--format json|text]
 
 COL is a header name or a 1-based column number. A digit deviation is a reason to look,
 not proof of wrongdoing.";
@@ -32,6 +40,7 @@ fn main() -> ExitCode {
     let r = match cmd.as_str() {
         "screen" => screen::run(rest),
         "watch" => watch::run(rest),
+        "trial" => trial::run(rest),
         "-h" | "--help" | "help" => {
             println!("{USAGE}");
             Ok(0)
