@@ -59,14 +59,20 @@
 //! **Cost.** Both statistics update in O(K) per invoice (K = 60) from a precomputed 90×K table
 //! of ratios, with a shared scale factor so that nothing overflows; components smaller than
 //! 1e-200 of their statistic are set to zero, which can only lower the statistic (so the
-//! guarantees above still hold).
+//! guarantees above still hold). Equal prior weights let all components share one scaled "+1"
+//! term; components are updated in blocks of 8 lanes (padding components have ratio 0 and stay
+//! 0) with plain multiplies and adds in a fixed order, so the result has the same bits with or
+//! without the AVX code path chosen at run time on x86_64, and in wasm. The replay copies each
+//! supplier's invoices into a compact buffer in one sequential pass over the ledger (a counting
+//! sort by supplier), orders each supplier by date with a counting sort by day, and then reads
+//! memory in order (`benches/monitor.rs` measures it).
 //!
 //! An alarm is a reason to look, not proof of fraud: suppliers must not be accused on it alone;
 //! defer to professional auditing standards, local law and counsel.
 
 use crate::amount::Amount;
 use crate::benford;
-use crate::intake::format_date;
+use crate::intake::{civil_from_days, format_date};
 use crate::ledger::{Invoice, Ledger, NO_DATE};
 use serde::Serialize;
 
@@ -139,8 +145,11 @@ impl Alternative {
 pub struct Family {
     alts: Vec<Alternative>,
     weights: Vec<f64>,
-    /// `ratio[b * k_pad + k] = q_k(b) / p(b)`, padded with ratio 1 / weight 0 to a multiple of 4.
+    /// `ratio[b * k_pad + k] = q_k(b) / p(b)`, padded to a multiple of `LANES` with ratio 0 (so a
+    /// padding component stays 0 although the shared "+1" of the change detector reaches it).
     ratio: Vec<f64>,
+    /// The same table as blocks of `LANES` components: `lanes[b * (k_pad / LANES) + j]`.
+    lanes: Vec<[f64; LANES]>,
     log_ratio: Vec<f64>,
     k_pad: usize,
 }
@@ -163,19 +172,18 @@ impl Family {
                 }
             }
         }
-        let w = vec![1.0 / alts.len() as f64; alts.len()];
-        Family::new(alts, w)
+        Family::new(alts)
     }
 
-    /// Any family; weights are normalised to sum to one.
-    pub fn new(alts: Vec<Alternative>, weights: Vec<f64>) -> Family {
-        assert!(!alts.is_empty() && alts.len() == weights.len());
-        let ws: f64 = weights.iter().sum();
-        let weights: Vec<f64> = weights.iter().map(|w| w / ws).collect();
+    /// Any family, with equal prior weights 1/K (equal weights let the update share one
+    /// "+1" term across components, which keeps it cheap).
+    pub fn new(alts: Vec<Alternative>) -> Family {
+        assert!(!alts.is_empty());
+        let weights = vec![1.0 / alts.len() as f64; alts.len()];
         let k = alts.len();
-        let k_pad = k.div_ceil(4) * 4;
+        let k_pad = k.div_ceil(LANES) * LANES;
         let p = benford::first_two();
-        let mut ratio = vec![1.0; BINS * k_pad];
+        let mut ratio = vec![0.0; BINS * k_pad];
         let mut log_ratio = vec![0.0; BINS * k_pad];
         for (j, a) in alts.iter().enumerate() {
             let q = a.first_two();
@@ -185,7 +193,8 @@ impl Family {
                 log_ratio[b * k_pad + j] = r.ln();
             }
         }
-        Family { alts, weights, ratio, log_ratio, k_pad }
+        let lanes = ratio.chunks_exact(LANES).map(|c| c.try_into().expect("LANES-sized chunk")).collect();
+        Family { alts, weights, ratio, lanes, log_ratio, k_pad }
     }
 
     pub fn len(&self) -> usize {
@@ -219,12 +228,12 @@ pub struct Crossing {
 #[derive(Clone, Debug)]
 pub struct Monitor<'a> {
     fam: &'a Family,
-    /// Since-start components π_k W_k, times e^{-scale_w}.
-    w: Vec<f64>,
-    /// Change-detector components π_k R_k, times e^{-scale_r}.
-    r: Vec<f64>,
-    /// π_k e^{-scale_r}: the "+1" of the Shiryaev–Roberts recursion, scaled.
-    pi_r: Vec<f64>,
+    /// Since-start components π_k W_k, times e^{-scale_w} (blocks of `LANES`).
+    w: Vec<[f64; LANES]>,
+    /// Change-detector components π_k R_k, times e^{-scale_r} (blocks of `LANES`).
+    r: Vec<[f64; LANES]>,
+    /// π e^{-scale_r} (π = 1/K): the "+1" of the Shiryaev–Roberts recursion, weighted and scaled.
+    pi_r: f64,
     scale_w: f64,
     scale_r: f64,
     sum_w: f64,
@@ -237,6 +246,74 @@ pub struct Monitor<'a> {
     counts: [u64; BINS],
 }
 
+/// Components are updated in blocks of this many (independent sums, so the loop vectorises).
+const LANES: usize = 8;
+
+#[inline(always)]
+fn sum_lanes(a: &[f64; LANES]) -> f64 {
+    ((a[0] + a[1]) + (a[2] + a[3])) + ((a[4] + a[5]) + (a[6] + a[7]))
+}
+
+/// One invoice for every component: `w ← w·l`, `r ← (r + π)·l`, with per-lane sums (even and
+/// odd blocks of lanes summed apart, then added: shorter dependency chains). Plain IEEE multiplies and adds in a fixed order (no fused multiply-add), so every
+/// instruction set gives the same bits.
+#[inline(always)]
+fn lane_block(w8: &mut [f64; LANES], r8: &mut [f64; LANES], l8: &[f64; LANES], pi: f64, aw: &mut [f64; LANES], ar: &mut [f64; LANES]) {
+    for i in 0..LANES {
+        let l = l8[i];
+        let a = w8[i] * l;
+        w8[i] = a;
+        aw[i] += a;
+        let b = (r8[i] + pi) * l;
+        r8[i] = b;
+        ar[i] += b;
+    }
+}
+
+#[inline(always)]
+fn lanes_body(w: &mut [[f64; LANES]], r: &mut [[f64; LANES]], row: &[[f64; LANES]], pi: f64) -> ([f64; LANES], [f64; LANES]) {
+    let z = [0.0f64; LANES];
+    let (mut w0, mut w1, mut r0, mut r1) = (z, z, z, z);
+    let n2 = w.len() / 2 * 2;
+    let (wa, wb) = w.split_at_mut(n2);
+    let (ra, rb) = r.split_at_mut(n2);
+    let (la, lb) = row.split_at(n2);
+    for ((w2, r2), l2) in wa.chunks_exact_mut(2).zip(ra.chunks_exact_mut(2)).zip(la.chunks_exact(2)) {
+        let [a0, a1] = w2 else { unreachable!() };
+        let [b0, b1] = r2 else { unreachable!() };
+        lane_block(a0, b0, &l2[0], pi, &mut w0, &mut r0);
+        lane_block(a1, b1, &l2[1], pi, &mut w1, &mut r1);
+    }
+    for ((a, b), l) in wb.iter_mut().zip(rb.iter_mut()).zip(lb) {
+        lane_block(a, b, l, pi, &mut w0, &mut r0);
+    }
+    let mut ow = z;
+    let mut or = z;
+    for i in 0..LANES {
+        ow[i] = w0[i] + w1[i];
+        or[i] = r0[i] + r1[i];
+    }
+    (ow, or)
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx")]
+fn lanes_body_avx(w: &mut [[f64; LANES]], r: &mut [[f64; LANES]], row: &[[f64; LANES]], pi: f64) -> ([f64; LANES], [f64; LANES]) {
+    lanes_body(w, r, row, pi)
+}
+
+#[inline(always)]
+fn lanes_step(w: &mut [[f64; LANES]], r: &mut [[f64; LANES]], row: &[[f64; LANES]], pi: f64) -> ([f64; LANES], [f64; LANES]) {
+    #[cfg(target_arch = "x86_64")]
+    {
+        if std::is_x86_feature_detected!("avx") {
+            // SAFETY: the CPU has AVX (checked just above).
+            return unsafe { lanes_body_avx(w, r, row, pi) };
+        }
+    }
+    lanes_body(w, r, row, pi)
+}
+
 const RESCALE_HI: f64 = 1e100;
 const RESCALE_LO: f64 = 1e-100;
 const FLUSH_REL: f64 = 1e-200;
@@ -247,9 +324,9 @@ impl<'a> Monitor<'a> {
     pub fn new(fam: &'a Family, log_thr_start: f64, log_thr_change: f64) -> Monitor<'a> {
         let mut m = Monitor {
             fam,
-            w: vec![0.0; fam.k_pad],
-            r: vec![0.0; fam.k_pad],
-            pi_r: vec![0.0; fam.k_pad],
+            w: vec![[0.0; LANES]; fam.k_pad / LANES],
+            r: vec![[0.0; LANES]; fam.k_pad / LANES],
+            pi_r: 0.0,
             scale_w: 0.0,
             scale_r: 0.0,
             sum_w: 1.0,
@@ -270,10 +347,10 @@ impl<'a> Monitor<'a> {
         let k = self.fam.len();
         for j in 0..self.fam.k_pad {
             let pi = if j < k { self.fam.weights[j] } else { 0.0 };
-            self.w[j] = pi;
-            self.pi_r[j] = pi;
-            self.r[j] = 0.0;
+            self.w[j / LANES][j % LANES] = pi;
+            self.r[j / LANES][j % LANES] = 0.0;
         }
+        self.pi_r = 1.0 / k as f64;
         self.scale_w = 0.0;
         self.scale_r = 0.0;
         self.sum_w = 1.0;
@@ -289,29 +366,11 @@ impl<'a> Monitor<'a> {
     /// Add one invoice (its first-two digit bin, 0..90). O(K).
     #[inline]
     pub fn push(&mut self, bin: usize) -> Crossing {
-        let kp = self.fam.k_pad;
-        let row = &self.fam.ratio[bin * kp..bin * kp + kp];
-        let mut sw = [0.0f64; 4];
-        let mut sr = [0.0f64; 4];
-        for (((w4, r4), p4), l4) in self
-            .w
-            .chunks_exact_mut(4)
-            .zip(self.r.chunks_exact_mut(4))
-            .zip(self.pi_r.chunks_exact(4))
-            .zip(row.chunks_exact(4))
-        {
-            for i in 0..4 {
-                let l = l4[i];
-                let w = w4[i] * l;
-                w4[i] = w;
-                sw[i] += w;
-                let r = (r4[i] + p4[i]) * l;
-                r4[i] = r;
-                sr[i] += r;
-            }
-        }
-        self.sum_w = (sw[0] + sw[1]) + (sw[2] + sw[3]);
-        self.sum_r = (sr[0] + sr[1]) + (sr[2] + sr[3]);
+        let nb = self.w.len();
+        let row = &self.fam.lanes[bin * nb..bin * nb + nb];
+        let (sw, sr) = lanes_step(&mut self.w, &mut self.r, row, self.pi_r);
+        self.sum_w = sum_lanes(&sw);
+        self.sum_r = sum_lanes(&sr);
         self.n += 1;
         self.counts[bin] += 1;
         if !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_w) || !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_r) || self.n % FLUSH_EVERY == 0 {
@@ -325,7 +384,7 @@ impl<'a> Monitor<'a> {
         let k = self.fam.len();
         if self.sum_w > 0.0 && !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_w) {
             let s = self.sum_w;
-            for v in self.w.iter_mut() {
+            for v in self.w.as_flattened_mut() {
                 *v /= s;
             }
             self.scale_w += s.ln();
@@ -334,7 +393,7 @@ impl<'a> Monitor<'a> {
         }
         if self.sum_r > 0.0 && !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_r) {
             let s = self.sum_r;
-            for v in self.r.iter_mut() {
+            for v in self.r.as_flattened_mut() {
                 *v /= s;
             }
             self.scale_r += s.ln();
@@ -342,18 +401,16 @@ impl<'a> Monitor<'a> {
             self.thr_r = (self.log_thr_r - self.scale_r).exp();
             // The "+1" term, scaled; below e^-600 of the statistic it is dropped (conservative).
             let f = if self.scale_r > 600.0 { 0.0 } else { (-self.scale_r).exp() };
-            for j in 0..k {
-                self.pi_r[j] = self.fam.weights[j] * f;
-            }
+            self.pi_r = f / k as f64;
         }
         let fw = self.sum_w * FLUSH_REL;
-        for v in self.w.iter_mut() {
+        for v in self.w.as_flattened_mut() {
             if *v < fw {
                 *v = 0.0;
             }
         }
         let fr = self.sum_r * FLUSH_REL;
-        for v in self.r.iter_mut() {
+        for v in self.r.as_flattened_mut() {
             if *v < fr {
                 *v = 0.0;
             }
@@ -377,7 +434,8 @@ impl<'a> Monitor<'a> {
     /// Index of the alternative carrying most of the change detector now.
     pub fn leading_change_alternative(&self) -> usize {
         let k = self.fam.len();
-        (0..k).max_by(|&a, &b| self.r[a].partial_cmp(&self.r[b]).unwrap()).unwrap_or(0)
+        let r = self.r.as_flattened();
+        (0..k).max_by(|&a, &b| r[a].partial_cmp(&r[b]).unwrap()).unwrap_or(0)
     }
 }
 
@@ -455,6 +513,39 @@ fn dloglik(counts: &[u64; BINS], p: &[f64], u: &[f64; BINS], lam: f64) -> f64 {
     s
 }
 
+/// Maximum-likelihood share: ℓ is concave in λ, so Newton steps safeguarded by a bisection
+/// bracket on the sign of ℓ' converge in a few iterations.
+fn share_mle(counts: &[u64; BINS], p: &[f64], u: &[f64; BINS]) -> f64 {
+    let top = 1.0 - 1e-12;
+    if dloglik(counts, p, u, 0.0) <= 0.0 {
+        return 0.0;
+    }
+    if dloglik(counts, p, u, top) >= 0.0 {
+        return 1.0;
+    }
+    let (mut a, mut b) = (0.0, top);
+    let mut x = 0.5;
+    for _ in 0..200 {
+        let (mut d1, mut d2) = (0.0, 0.0);
+        for k in 0..BINS {
+            if counts[k] > 0 {
+                let g = u[k] - p[k];
+                let m = (1.0 - x) * p[k] + x * u[k];
+                d1 += counts[k] as f64 * g / m;
+                d2 -= counts[k] as f64 * g * g / (m * m);
+            }
+        }
+        if d1 > 0.0 { a = x } else { b = x }
+        let nx = if d2 < 0.0 { x - d1 / d2 } else { f64::NAN };
+        let nx = if nx > a && nx < b { nx } else { 0.5 * (a + b) };
+        if (nx - x).abs() < 1e-13 || b - a < 1e-13 {
+            return nx;
+        }
+        x = nx;
+    }
+    x
+}
+
 /// See [`ShareEstimate`]. `conf` in (0, 1).
 pub fn fabricated_share(counts: &[u64; BINS], u: &[f64; BINS], conf: f64) -> ShareEstimate {
     let p = benford::first_two();
@@ -462,45 +553,37 @@ pub fn fabricated_share(counts: &[u64; BINS], u: &[f64; BINS], conf: f64) -> Sha
     if n == 0 {
         return ShareEstimate { mle: 0.0, low: 0.0, high: 1.0 };
     }
-    // ℓ is concave in λ: bisection on the derivative.
-    let mle = if dloglik(counts, &p, u, 0.0) <= 0.0 {
-        0.0
-    } else if dloglik(counts, &p, u, 1.0 - 1e-12) >= 0.0 {
-        1.0
-    } else {
-        let (mut a, mut b) = (0.0, 1.0 - 1e-12);
-        for _ in 0..200 {
-            let m = 0.5 * (a + b);
-            if dloglik(counts, &p, u, m) > 0.0 {
-                a = m;
-            } else {
-                b = m;
-            }
-            if b - a < 1e-13 {
-                break;
-            }
-        }
-        0.5 * (a + b)
-    };
+    let mle = share_mle(counts, &p, u);
     let crit = chi2_1_quantile(conf) / 2.0;
     let lmax = loglik(counts, &p, u, mle);
-    let below = |lam: f64| lmax - loglik(counts, &p, u, lam) > crit;
-    let root = |mut inside: f64, mut outside: f64| {
+    // g(λ) = ℓ(λ̂) − ℓ(λ) − crit is convex with g(λ̂) < 0: each end of the interval is the root
+    // of g between λ̂ and 0 (or 1). Newton steps from the outside end approach a root of a convex
+    // function without overshooting; they are safeguarded by the bracket (bisection when a
+    // step leaves it or g is not finite, e.g. ln 0 at λ = 1).
+    let g = |lam: f64| lmax - loglik(counts, &p, u, lam) - crit;
+    let root = |inside: f64, outside: f64| {
+        let (mut a, mut b) = (inside, outside); // g(a) <= 0 < g(b)
+        let mut x = b;
         for _ in 0..200 {
-            let m = 0.5 * (inside + outside);
-            if below(m) {
-                outside = m;
+            let gx = g(x);
+            if gx > 0.0 {
+                b = x;
             } else {
-                inside = m;
+                a = x;
             }
-            if (outside - inside).abs() < 1e-12 {
-                break;
+            let d = -dloglik(counts, &p, u, x);
+            let nx = if gx.is_finite() && d != 0.0 && d.is_finite() { x - gx / d } else { f64::NAN };
+            let (lo, hi) = if a < b { (a, b) } else { (b, a) };
+            let nx = if nx > lo && nx < hi { nx } else { 0.5 * (a + b) };
+            if (nx - x).abs() < 1e-13 || (b - a).abs() < 1e-13 {
+                return nx;
             }
+            x = nx;
         }
-        0.5 * (inside + outside)
+        x
     };
-    let low = if below(0.0) { root(mle, 0.0) } else { 0.0 };
-    let high = if below(1.0) { root(mle, 1.0) } else { 1.0 };
+    let low = if g(0.0) > 0.0 { root(mle, 0.0) } else { 0.0 };
+    let high = if g(1.0) > 0.0 { root(mle, 1.0) } else { 1.0 };
     ShareEstimate { mle, low, high }
 }
 
@@ -679,32 +762,141 @@ const METHOD: [&str; 3] = [
     "each supplier's invoices are read in date order, ties by file order; first-two digits read exactly from the amounts",
 ];
 
+/// ISO date text of a day number, as [`format_date`] writes it (checked in the tests), without
+/// the formatting machinery: the replay writes one per trajectory point.
 fn days_opt(d: i32) -> Option<String> {
     if d == NO_DATE {
-        None
+        return None;
+    }
+    let (y, m, day) = civil_from_days(d);
+    if !(0..=9999).contains(&y) {
+        return Some(format_date(d));
+    }
+    let (y, m, day) = (y as u32, m, day);
+    let b = [
+        b'0' + (y / 1000) as u8,
+        b'0' + (y / 100 % 10) as u8,
+        b'0' + (y / 10 % 10) as u8,
+        b'0' + (y % 10) as u8,
+        b'-',
+        b'0' + (m / 10) as u8,
+        b'0' + (m % 10) as u8,
+        b'-',
+        b'0' + (day / 10) as u8,
+        b'0' + (day % 10) as u8,
+    ];
+    Some(String::from_utf8(b.to_vec()).expect("ASCII digits"))
+}
+
+/// What the replay needs of one invoice, copied out of the ledger (16 bytes; the statistics
+/// then read memory in order instead of jumping around the ledger).
+#[derive(Clone, Copy, Debug, Default)]
+struct Rec {
+    amount: i64,
+    date: i32,
+    /// Index of the invoice in the ledger.
+    idx: u32,
+}
+
+/// Invoices grouped per supplier, each group in file order: a counting sort by supplier that
+/// reads the ledger once in order and writes compact records. Also returns the group starts
+/// and the number of undated invoices per supplier.
+fn group(ledger: &Ledger) -> (Vec<Rec>, Vec<usize>, Vec<u64>) {
+    let inv = &ledger.invoices;
+    let ns = ledger.suppliers.len();
+    let mut undated = vec![0u64; ns];
+    let mut start = vec![0usize; ns + 1];
+    for i in inv {
+        start[i.supplier as usize + 1] += 1;
+        undated[i.supplier as usize] += (i.date == NO_DATE) as u64;
+    }
+    for k in 0..ns {
+        start[k + 1] += start[k];
+    }
+    let mut pos = start.clone();
+    let mut recs = vec![Rec::default(); inv.len()];
+    for (j, i) in inv.iter().enumerate() {
+        let p = &mut pos[i.supplier as usize];
+        recs[*p] = Rec { amount: i.amount.0, date: i.date, idx: j as u32 };
+        *p += 1;
+    }
+    (recs, start, undated)
+}
+
+/// One supplier's invoices (`g`, in file order) into reading order, in place: by date, ties by
+/// line number, when `by_date`; else by line number. When the ledger's line numbers rise with
+/// its index (`lines_in_order`, always so for a file read by the intake) file order is line
+/// order, so an already ordered group is left as it is, and otherwise a stable counting sort by
+/// day (when the days spanned are few) or a sort on the unique key (date, index) is used.
+/// `scratch` and `cnt` are reused buffers.
+fn reading_order(ledger: &Ledger, g: &mut [Rec], by_date: bool, lines_in_order: bool, scratch: &mut Vec<Rec>, cnt: &mut Vec<u32>) {
+    let inv = &ledger.invoices;
+    if !lines_in_order {
+        if by_date {
+            g.sort_by_key(|r| (r.date, inv[r.idx as usize].line));
+        } else {
+            g.sort_by_key(|r| inv[r.idx as usize].line);
+        }
+        return;
+    }
+    if !by_date || g.windows(2).all(|w| w[0].date <= w[1].date) {
+        return;
+    }
+    let (lo, hi) = g.iter().fold((i32::MAX, i32::MIN), |(a, b), r| (a.min(r.date), b.max(r.date)));
+    let span = (hi as i64 - lo as i64 + 1) as usize;
+    if span <= 4 * g.len() + 1024 {
+        cnt.clear();
+        cnt.resize(span + 1, 0);
+        for r in g.iter() {
+            cnt[(r.date - lo) as usize + 1] += 1;
+        }
+        for k in 1..cnt.len() {
+            cnt[k] += cnt[k - 1];
+        }
+        scratch.clear();
+        scratch.resize(g.len(), Rec::default());
+        for r in g.iter() {
+            let c = &mut cnt[(r.date - lo) as usize];
+            scratch[*c as usize] = *r;
+            *c += 1;
+        }
+        g.copy_from_slice(scratch);
     } else {
-        Some(format_date(d))
+        g.sort_unstable_by_key(|r| ((r.date as i64) << 32) | r.idx as i64);
     }
 }
 
-/// Invoice indices grouped per supplier (counting sort: each group in file order).
-fn group(ledger: &Ledger) -> (Vec<u32>, Vec<usize>) {
-    let ns = ledger.suppliers.len();
-    let mut start = vec![0usize; ns + 1];
-    for inv in &ledger.invoices {
-        start[inv.supplier as usize + 1] += 1;
+/// First-two digit bin of a scaled amount, exactly as [`first_two_bin`] (the same integer
+/// quotient `|v| / 10^(digits - 2)`, or `|v| · 10` for a one-digit integer) but with constant
+/// divisors, which the compiler turns into multiplications. Zero gives bin 0, as in the replay.
+#[inline]
+fn bin_of_scaled(v: i64) -> usize {
+    let v = v.unsigned_abs();
+    if v == 0 {
+        return 0;
     }
-    for s in 0..ns {
-        start[s + 1] += start[s];
-    }
-    let mut pos = start.clone();
-    let mut idx = vec![0u32; ledger.invoices.len()];
-    for (i, inv) in ledger.invoices.iter().enumerate() {
-        let p = &mut pos[inv.supplier as usize];
-        idx[*p] = i as u32;
-        *p += 1;
-    }
-    (idx, start)
+    let q = match v.ilog10() {
+        0 => v * 10,
+        1 => v,
+        2 => v / 10,
+        3 => v / 100,
+        4 => v / 1_000,
+        5 => v / 10_000,
+        6 => v / 100_000,
+        7 => v / 1_000_000,
+        8 => v / 10_000_000,
+        9 => v / 100_000_000,
+        10 => v / 1_000_000_000,
+        11 => v / 10_000_000_000,
+        12 => v / 100_000_000_000,
+        13 => v / 1_000_000_000_000,
+        14 => v / 10_000_000_000_000,
+        15 => v / 100_000_000_000_000,
+        16 => v / 1_000_000_000_000_000,
+        17 => v / 10_000_000_000_000_000,
+        _ => v / 100_000_000_000_000_000,
+    };
+    (q - 10) as usize
 }
 
 /// Start of the deviation for a change alarm: replay a CUSUM `max(M, 1)·L` with the leading
@@ -730,19 +922,20 @@ fn cusum_onset(fam: &Family, k: usize, bins: &[usize]) -> usize {
 fn own_range_fit(counts: &[u64; BINS], sorted: &[i64], conf: f64) -> (i64, i64, [f64; BINS], ShareEstimate) {
     let p = benford::first_two();
     let q = |f: f64| sorted[((sorted.len() - 1) as f64 * f).round() as usize];
-    let mut best: Option<(f64, i64, i64, [f64; BINS], ShareEstimate)> = None;
+    let mut best: Option<(f64, i64, i64, [f64; BINS])> = None;
     for lf in [0.0, 0.01, 0.02, 0.05, 0.10] {
         for hf in [0.90, 0.95, 0.98, 0.99, 1.0] {
             let (lo, hi) = (q(lf), q(hf));
             let u = even_spread_first_two(Amount(lo).to_f64(), Amount(hi).to_f64());
-            let e = fabricated_share(counts, &u, conf);
-            let ll = loglik(counts, &p, &u, e.mle);
+            let m = share_mle(counts, &p, &u);
+            let ll = loglik(counts, &p, &u, m);
             if best.as_ref().is_none_or(|b| ll > b.0) {
-                best = Some((ll, lo, hi, u, e));
+                best = Some((ll, lo, hi, u));
             }
         }
     }
-    let (_, lo, hi, u, e) = best.expect("non-empty window");
+    let (_, lo, hi, u) = best.expect("non-empty window");
+    let e = fabricated_share(counts, &u, conf);
     (lo, hi, u, e)
 }
 
@@ -751,37 +944,31 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
     let fam = Family::standard();
     let alpha = (1.0 - opts.confidence).clamp(1e-12, 0.5);
     let log_thr_start = (1.0 / alpha).ln();
-    let (idx, start) = group(ledger);
+    let (mut recs, start, undated_of) = group(ledger);
     let mut mon = Monitor::new(&fam, log_thr_start, log_thr_start);
     let mut suppliers = Vec::new();
     let mut notes = Vec::new();
     let mut replay_rows = Vec::new();
     let mut undated_total = 0u64;
-    let mut order_buf: Vec<u32> = Vec::new();
+    let (mut scratch, mut cnt) = (Vec::new(), Vec::new());
+    let lines_in_order = ledger.invoices.windows(2).all(|w| w[0].line <= w[1].line);
     let mut bins: Vec<u8> = Vec::new();
     let traj_max = opts.trajectory_points.max(2);
 
     for sid in 0..ledger.suppliers.len() {
-        let g = &idx[start[sid]..start[sid + 1]];
-        if g.is_empty() {
+        let order_buf = &mut recs[start[sid]..start[sid + 1]];
+        if order_buf.is_empty() {
             continue;
         }
         let inv = |i: u32| -> &Invoice { &ledger.invoices[i as usize] };
-        let undated = g.iter().filter(|&&i| inv(i).date == NO_DATE).count() as u64;
+        let undated = undated_of[sid];
         undated_total += undated;
-        order_buf.clear();
-        order_buf.extend_from_slice(g);
         let by_date = undated == 0;
-        if by_date {
-            if !order_buf.windows(2).all(|w| (inv(w[0]).date, inv(w[0]).line) <= (inv(w[1]).date, inv(w[1]).line)) {
-                order_buf.sort_by_key(|&i| (inv(i).date, inv(i).line));
-            }
-        } else if !order_buf.windows(2).all(|w| inv(w[0]).line <= inv(w[1]).line) {
-            order_buf.sort_by_key(|&i| inv(i).line);
-        }
+        reading_order(ledger, order_buf, by_date, lines_in_order, &mut scratch, &mut cnt);
+        let order_buf = &*order_buf;
         let n = order_buf.len() as u64;
         let (first, last) = if by_date {
-            (inv(order_buf[0]).date, inv(order_buf[order_buf.len() - 1]).date)
+            (order_buf[0].date, order_buf[order_buf.len() - 1].date)
         } else {
             (NO_DATE, NO_DATE)
         };
@@ -792,6 +979,7 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
         mon.reset(log_thr_start, log_c);
 
         let step = (n as usize).div_ceil(traj_max).max(1);
+        let mut to_next_point = step; // invoices left to the next regular trajectory point
         let mut traj = Vec::with_capacity(traj_max + 2);
         let mut total = Amount::ZERO;
         let mut alarm: Option<(usize, &'static str)> = None;
@@ -801,17 +989,17 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
         let mut lead_k = 0usize;
         let mut asof_state: Option<(u64, Amount, f64, f64)> = None;
         bins.clear();
-        for (pos, &i) in order_buf.iter().enumerate() {
-            let v = inv(i);
+        for (pos, v) in order_buf.iter().enumerate() {
+            let amount = Amount(v.amount);
             if let Some(a) = opts.as_of {
                 if by_date && asof_state.is_none() && v.date > a {
                     asof_state = Some((pos as u64, total, mon.log_since_start(), mon.log_since_change()));
                 }
             }
-            let b = first_two_bin(v.amount).unwrap_or(0);
+            let b = bin_of_scaled(v.amount);
             bins.push(b as u8);
             let cr = mon.push(b);
-            total = total.saturating_add(v.amount);
+            total = total.saturating_add(amount);
             let mut is_alarm = false;
             if cr.since_start && ss_alarm.is_none() {
                 ss_alarm = Some(pos);
@@ -825,7 +1013,12 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
                 lead_k = mon.leading_change_alternative();
                 is_alarm = true;
             }
-            if is_alarm || (pos + 1) % step == 0 || pos + 1 == n as usize {
+            to_next_point -= 1;
+            let regular = to_next_point == 0;
+            if regular {
+                to_next_point = step;
+            }
+            if is_alarm || regular || pos + 1 == n as usize {
                 traj.push(TrajectoryPoint {
                     invoice: pos as u64 + 1,
                     date: days_opt(v.date),
@@ -846,7 +1039,7 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
             run_length_invoices: c,
             run_length_years: c / per_year,
         };
-        let date_at = |pos: usize| days_opt(inv(order_buf[pos]).date);
+        let date_at = |pos: usize| days_opt(order_buf[pos].date);
         let estimate = alarm.map(|(apos, which)| {
             let bins_usize: Vec<usize> = bins[..=apos].iter().map(|&b| b as usize).collect();
             let from = if which == "since_start" { 0 } else { cusum_onset(&fam, lead_k, &bins_usize) };
@@ -854,8 +1047,8 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
             let mut counts = [0u64; BINS];
             let mut paid = Amount::ZERO;
             let mut sorted: Vec<i64> = Vec::with_capacity(window.len());
-            for &i in window {
-                let a = inv(i).amount;
+            for r in window {
+                let a = Amount(r.amount);
                 counts[first_two_bin(a).unwrap_or(0)] += 1;
                 paid = paid.saturating_add(a);
                 sorted.push(a.0);
@@ -866,8 +1059,8 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
             let expected = |lam: f64| -> f64 {
                 window
                     .iter()
-                    .map(|&i| {
-                        let a = inv(i).amount;
+                    .map(|r| {
+                        let a = Amount(r.amount);
                         let b = first_two_bin(a).unwrap_or(0);
                         let num = lam * u[b];
                         let den = (1.0 - lam) * p[b] + num;
@@ -919,7 +1112,7 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
             in_alarm: alarm.is_some(),
             alarm_date: alarm.and_then(|(p, _)| date_at(p)),
             alarm_invoice: alarm.map(|(p, _)| p as u64 + 1),
-            alarm_line: alarm.map(|(p, _)| inv(order_buf[p]).line),
+            alarm_line: alarm.map(|(p, _)| inv(order_buf[p].idx).line),
             alarm_evidence: alarm.map(|(_, w)| w),
             since_start_alarm_date: ss_alarm.and_then(date_at),
             since_change_alarm_date: sc_alarm.and_then(date_at),
@@ -1071,4 +1264,77 @@ pub fn render_text(rep: &WatchReport) -> String {
     );
     let _ = writeln!(s, "\n{}", rep.caution);
     s
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The constant-divisor bin agrees with the general digit reader (`Amount::leading_digits`,
+    /// itself checked against hand-worked digits in its own tests) at every power-of-ten edge
+    /// and on random amounts, negative ones and the extremes included.
+    #[test]
+    fn bin_of_scaled_matches_first_two_bin() {
+        let mut vals: Vec<i64> = vec![1, 9, 10, 11, 99, 100, 101, i64::MAX, i64::MIN + 1, i64::MIN];
+        let mut p: i64 = 1;
+        for _ in 0..18 {
+            p *= 10;
+            for d in [-1, 0, 1] {
+                for m in [1, 2, 5, 9, 10] {
+                    if let Some(x) = p.checked_mul(m).and_then(|x| x.checked_add(d)) {
+                        vals.push(x);
+                    }
+                }
+            }
+        }
+        let mut x: u64 = 0x2545_F491_4F6C_DD1D;
+        for _ in 0..200_000 {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            vals.push((x >> (x % 60)) as i64 * if x & 1 == 0 { 1 } else { -1 });
+        }
+        for v in vals.into_iter().filter(|&v| v != 0) {
+            assert_eq!(Some(bin_of_scaled(v)), first_two_bin(Amount(v)), "amount {v}");
+        }
+    }
+
+    #[test]
+    fn day_text_matches_format_date() {
+        // Every day of 1900..=2100, every 13th day from 0001 to 9999, and days outside (fallback).
+        let day = crate::intake::days_from_civil;
+        let days = (day(1900, 1, 1)..=day(2100, 12, 31)).chain((day(1, 1, 1) - 400..=day(9999, 12, 31) + 400).step_by(13));
+        for d in days {
+            assert_eq!(days_opt(d).unwrap(), format_date(d), "day {d}");
+        }
+        assert_eq!(days_opt(NO_DATE), None);
+    }
+
+    /// The Newton interval ends agree with plain bisection on g(λ) = ℓ(λ̂) − ℓ(λ) − crit.
+    #[test]
+    fn share_interval_matches_bisection() {
+        let p = benford::first_two();
+        for (lo, hi, lam, n) in [(100.0, 900.0, 0.3, 400.0), (2.0, 7.0, 0.05, 5000.0), (1.0, 10.0, 0.9, 60.0), (300.0, 900.0, 1.0, 200.0)] {
+            let u = even_spread_first_two(lo, hi);
+            let mut c = [0u64; BINS];
+            for b in 0..BINS {
+                c[b] = (((1.0 - lam) * p[b] + lam * u[b]) * n).round() as u64;
+            }
+            let e = fabricated_share(&c, &u, 0.95);
+            let crit = chi2_1_quantile(0.95) / 2.0;
+            let lmax = loglik(&c, &p, &u, e.mle);
+            let g = |x: f64| lmax - loglik(&c, &p, &u, x) - crit;
+            let bis = |mut inside: f64, mut outside: f64| {
+                for _ in 0..200 {
+                    let m = 0.5 * (inside + outside);
+                    if g(m) > 0.0 { outside = m } else { inside = m }
+                }
+                0.5 * (inside + outside)
+            };
+            let want_low = if g(0.0) > 0.0 { bis(e.mle, 0.0) } else { 0.0 };
+            let want_high = if g(1.0) > 0.0 { bis(e.mle, 1.0) } else { 1.0 };
+            assert!((e.low - want_low).abs() < 1e-9 && (e.high - want_high).abs() < 1e-9, "{e:?} vs {want_low} {want_high}");
+            assert!(e.low <= e.mle && e.mle <= e.high);
+        }
+    }
 }

@@ -124,8 +124,7 @@ fn grid(lows: &[f64], spans: &[f64], shares: &[f64]) -> Family {
             }
         }
     }
-    let w = vec![1.0; a.len()];
-    Family::new(a, w)
+    Family::new(a)
 }
 
 #[test]
@@ -173,8 +172,7 @@ fn design_levers() {
                     }
                 }
             }
-            let w = vec![1.0; a.len()];
-            Family::new(a, w)
+            Family::new(a)
         }),
         ("oracle: exactly 100..900 at the true share", grid(&[1.0], &[9.0], &[1.0, 0.3])),
     ];
