@@ -46,7 +46,7 @@
   worker.onmessage = (ev) => {
     const m = ev.data;
     if (m.ready) return;
-    if (m.progress) { onProgress(m); return; }
+    if (m.progress) { if (m.trial) onTrialProgress(m); else onProgress(m); return; }
     const p = pending.get(m.id);
     if (!p) return;
     pending.delete(m.id);
@@ -73,6 +73,7 @@
     if (view === 'suppliers') drawSelected();
     if (view === 'supplier') renderSupplierFile();
     if (view === 'replay') renderReplay();
+    if (view === 'trial') renderTrial();
     if (view === 'paper') renderPaper();
   }
   window.addEventListener('hashchange', () => show(location.hash.slice(1)));
@@ -590,6 +591,123 @@
       h_lines: [[s.evidence.since_start_threshold_log / LN10, 'alarm line (since start)'], [s.evidence.since_change_threshold_log / LN10, 'alarm line (since a change)']],
       v_lines: v });
     c.dataset.drawn = 'yes';
+  }
+
+  // ---------- detection trial: invented invoices on a copy of the ledger, run in the Worker ----------
+  // Results stay in this view (state.trial); they never enter the screen, the exports or the
+  // working paper. Cell text is set with textContent only.
+  const TRIAL_CAUTION = 'A detection trial places invented invoices in a copy of the ledger: it says how often the screen would catch these patterns on this ledger, ' +
+    'not whether anything in the real ledger is fabricated. Real fabrication may look different. Nothing here changes the screen, the exports or the working paper.';
+  const TRIAL_PATTERNS = [
+    ['even', 'Spread evenly'],
+    ['below-limit', 'Just below an approval limit'],
+    ['repeat', 'A few amounts repeated'],
+    ['by-hand', 'Made up by hand'],
+  ];
+  let trialRunning = false;
+  function onTrialProgress(m) {
+    const bar = $('trial-progress-fill'), txt = $('trial-progress-text');
+    if (!bar || !txt) return;
+    bar.style.width = (m.total ? Math.round(100 * m.done / m.total) : 0) + '%';
+    txt.textContent = `Replication ${fmtInt(m.done)} of ${fmtInt(m.total)}` + (m.ms ? ` · ${(m.ms / 1000).toFixed(1)} s` : '');
+    $('trial-body').dataset.done = String(m.done);
+  }
+  function renderTrial() {
+    const body = $('trial-body');
+    if (!state.report) { body.replaceChildren(el('p', { text: 'Open a ledger first.' })); return; }
+    if (state.report.from_counts) { body.replaceChildren(el('p', { text: 'A digit-count table has no invoices to replace: the trial needs the ledger itself.' })); return; }
+    if (body.dataset.ready === state.fileName) return;
+    body.dataset.ready = state.fileName;
+    const field = (label, input) => el('label', null, label, input);
+    const pattern = el('select', { id: 'trial-pattern' }, TRIAL_PATTERNS.map(([v, t]) => el('option', { value: v }, t)));
+    const share = el('input', { id: 'trial-share', type: 'number', min: 0, max: 100, step: 1, value: 20 });
+    const dates = state.report.suppliers.map((s) => s.first_date).filter(Boolean).sort();
+    const from = el('input', { id: 'trial-from', type: 'date', value: dates[0] || '' });
+    const reps = el('input', { id: 'trial-reps', type: 'number', min: 1, max: 10000, step: 1, value: 100 });
+    const seed = el('input', { id: 'trial-seed', type: 'number', min: 0, step: 1, value: 1 });
+    const who = el('select', { id: 'trial-suppliers' }, el('option', { value: 'consistent' }, 'Suppliers the screen finds in line'), el('option', { value: 'all' }, 'Every supplier'));
+    const controls = el('input', { id: 'trial-controls', type: 'number', min: 0, max: 90, step: 5, value: 50 });
+    const limit = el('input', { id: 'trial-limit', type: 'text', inputmode: 'decimal', placeholder: 'e.g. 5000 (else a round figure per supplier)' });
+    const run = el('button', { class: 'btn', type: 'button', id: 'trial-run' }, 'Run the trial');
+    const cancel = el('button', { class: 'btn alt', type: 'button', id: 'trial-cancel', hidden: true }, 'Cancel');
+    const progress = el('div', { class: 'progress', id: 'trial-progress', hidden: true },
+      el('div', { class: 'bar', role: 'progressbar', 'aria-label': 'Trial progress' }, el('div', { id: 'trial-progress-fill', class: 'fill' })),
+      el('span', { id: 'trial-progress-text', class: 'small', 'aria-live': 'polite' }), cancel);
+    const out = el('div', { id: 'trial-results' });
+    body.replaceChildren(
+      el('p', { class: 'caution', text: TRIAL_CAUTION }),
+      el('p', { class: 'lede', text: 'Choose how invented invoices are made and how many. Each replication gives part of the chosen suppliers invented invoices (they take the place of real ones from the start date on) and leaves the rest untouched for comparison, then runs the screen and the replay on that copy.' }),
+      el('div', { class: 'settings-grid', id: 'trial-controls-grid' },
+        field('How amounts are invented (evenly: over the supplier\u2019s usual amounts)', pattern), field('Share of each supplier\u2019s invoices invented (%)', share),
+        field('Invented from this date on', from), field('Replications', reps), field('Seed for the trial', seed),
+        field('Suppliers that may get invented invoices', who), field('Of those, left untouched for comparison (%)', controls),
+        field('Approval limit (for \u201cjust below a limit\u201d)', limit)),
+      el('p', { class: 'row' }, run), progress, out);
+    cancel.addEventListener('click', () => worker.postMessage({ cmd: 'cancel' }));
+    run.addEventListener('click', async () => {
+      if (trialRunning) return;
+      const settings = { pattern: pattern.value, share: Math.min(100, Math.max(0, Number(share.value) || 0)) / 100, from: from.value,
+        replications: Math.max(1, Math.round(Number(reps.value) || 100)), seed: Math.max(0, Math.round(Number(seed.value) || 0)),
+        suppliers: who.value, controls: Math.min(90, Math.max(0, Number(controls.value) || 0)) / 100, limit: limit.value.trim(), screen: screenSettings() };
+      trialRunning = true; run.disabled = true; cancel.hidden = false; progress.hidden = false;
+      body.dataset.state = 'running';
+      onTrialProgress({ done: 0, total: settings.replications });
+      try {
+        const res = await call('trial', { settings });
+        state.trial = res;
+        body.dataset.state = 'done';
+        renderTrialResults(out, res, settings);
+      } catch (e) {
+        body.dataset.state = e && e.cancelled ? 'cancelled' : 'error';
+        out.replaceChildren(el('p', { class: 'msg note', id: 'trial-msg', text: e && e.cancelled ? 'Trial cancelled. Nothing was kept.' : 'The trial could not run: ' + (e && e.message ? e.message : e) }));
+      } finally {
+        trialRunning = false; run.disabled = false; cancel.hidden = true; progress.hidden = true;
+      }
+    });
+  }
+  function renderTrialResults(out, res, settings) {
+    const r = res.report, p = r.parameters;
+    const pc = (x) => (x === null || x === undefined) ? '—' : (100 * x).toFixed(1) + ' %';
+    const pcse = (x, se) => (x === null || x === undefined) ? '—' : (100 * x).toFixed(1) + ' ± ' + (100 * (se || 0)).toFixed(1) + ' %';
+    const n0 = (x) => (x === null || x === undefined) ? '—' : fmtInt(Math.round(x));
+    const main = r.levels.find((l) => Math.abs(l.confidence - p.screen_confidence) < 1e-9) || r.levels[0];
+    const conf = (c) => (100 * c).toFixed(c >= 0.995 ? 1 : 0) + ' %';
+    const canvas = el('canvas', { class: 'chart wide', id: 'chart-trial', role: 'img', 'aria-label': 'Share of suppliers with invented invoices caught, against the share of untouched suppliers flagged, at each confidence level; the table below gives the same numbers' });
+    const line = (get) => r.levels.map((l) => [get(l).fa, get(l).s]).filter((q) => q[0] !== null && q[1] !== null);
+    const table = el('table', { class: 'grid compact', id: 'trial-table' },
+      el('caption', { text: 'Per confidence level. Caught: suppliers with invented invoices flagged by the screen or the replay. False alarms: untouched suppliers flagged. ± one Monte Carlo standard error over the replications. Invoices and days to alarm, and the invented amount paid by then: medians over suppliers caught after their first invented invoice. Alarm before any invented: the supplier\u2019s real invoices had already raised the replay\u2019s alarm.' }),
+      el('thead', null, el('tr', null, ['Confidence', 'Caught', 'False alarms', 'Caught, screen', 'False alarms, screen', 'Caught, replay', 'False alarms, replay', 'Invoices to alarm', 'Days to alarm', 'Invented paid by then', 'Alarm before any invented'].map((h) => el('th', { text: h })))),
+      el('tbody', null, r.levels.map((l) => el('tr', { class: l === main ? 'sel' : null },
+        el('td', { class: 'num', text: conf(l.confidence) }), el('td', { class: 'num', text: pcse(l.sensitivity, l.sensitivity_se) }), el('td', { class: 'num', text: pcse(l.false_alarm_rate, l.false_alarm_rate_se) }),
+        el('td', { class: 'num', text: pc(l.batch.sensitivity) }), el('td', { class: 'num', text: pc(l.batch.false_alarm_rate) }),
+        el('td', { class: 'num', text: pc(l.monitoring.sensitivity) }), el('td', { class: 'num', text: pc(l.monitoring.false_alarm_rate) }),
+        el('td', { class: 'num', text: n0(l.median_delay_invoices) }), el('td', { class: 'num', text: n0(l.median_delay_days) }),
+        el('td', { class: 'num', text: l.paid_before_detection === null ? '—' : fmtMoney(l.paid_before_detection) }), el('td', { class: 'num', text: pc(l.alarmed_before_injection) })))));
+    const summary = main.sensitivity === null
+      ? `No supplier received invented invoices (share ${(100 * p.share).toFixed(0)} %), so there is nothing to catch; ${pc(main.false_alarm_rate)} of the untouched suppliers were flagged at ${conf(main.confidence)}.`
+      : `At ${conf(main.confidence)} (the screen\u2019s setting), ${pc(main.sensitivity)} of the suppliers with invented invoices were caught, and ${pc(main.false_alarm_rate)} of the untouched ones were flagged.` +
+        (main.median_delay_invoices !== null ? ` When the replay caught one after its invented invoices began, it took a median ${n0(main.median_delay_invoices)} invoices (${n0(main.median_delay_days)} days), with ${fmtMoney(main.paid_before_detection)} of invented amounts paid by then.` : '');
+    out.replaceChildren(...[
+      el('h2', { text: 'Trial results (kept apart from the screen)' }),
+      el('p', { class: 'summary', id: 'trial-summary' }, el('strong', { text: summary })),
+      el('p', { class: 'small', id: 'trial-facts', text: `${fmtInt(p.replications)} replication${p.replications === 1 ? '' : 's'} in ${(res.ms / 1000).toFixed(1)} s · seed ${p.seed} · ${TRIAL_PATTERNS.find((x) => x[0] === settings.pattern)[1].toLowerCase()} · ${(100 * p.share).toFixed(0)} % of invoices` + (p.from ? ` from ${p.from}` : '') +
+        ` · ${fmtInt(r.pool.length)} suppliers chosen, about ${r.mean_injected_suppliers.toFixed(1)} with invented invoices and ${r.mean_control_suppliers.toFixed(1)} left untouched per replication · about ${fmtInt(Math.round(r.mean_invented_invoices))} invented invoices per replication.` }),
+      canvas, pngButton(canvas, 'trial-caught-vs-false-alarms'),
+      el('div', { class: 'table-wrap' }, table),
+      r.by_hand_sources ? el('p', { class: 'small', text: r.by_hand_sources }) : null,
+      el('details', null, el('summary', { text: 'How the trial works' }), el('ul', null, r.method.map((m) => el('li', { text: m })))),
+      el('p', { class: 'caution', text: r.caution })].filter(Boolean));
+    const dpr = sizeCanvas(canvas);
+    wasm_bindgen.drawScatter(canvas, { title: 'Caught against false alarms, one point per confidence level', scale: dpr, x_label: 'untouched suppliers flagged (share)', y_label: 'suppliers with invented invoices caught (share)',
+      y_min: 0, y_max: 1.02,
+      points: r.levels.filter((l) => l.sensitivity !== null && l.false_alarm_rate !== null).map((l) => ({ x: l.false_alarm_rate, y: l.sensitivity, selected: l === main })),
+      curves: [
+        { label: 'screen or replay', points: line((l) => ({ fa: l.false_alarm_rate, s: l.sensitivity })) },
+        { label: 'screen alone', points: line((l) => ({ fa: l.batch.false_alarm_rate, s: l.batch.sensitivity })) },
+        { label: 'replay alone', points: line((l) => ({ fa: l.monitoring.false_alarm_rate, s: l.monitoring.sensitivity })) },
+        { label: 'no better than chance', points: [[0, 0], [1, 1]], dashed: true },
+      ] });
+    canvas.dataset.drawn = 'yes';
   }
 
   // ---------- one supplier's file: every test, amount checks, the invoices behind them ----------

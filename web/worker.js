@@ -41,6 +41,29 @@ async function openLedger(id, blob, name, options, settings) {
   post({ id, ok: true, value: { name, size: total, intake, screen, ms, sha256: session.fingerprint() } });
 }
 
+// A zero-delay yield to the event loop, so a Cancel message gets in between replications.
+const yieldChannel = new MessageChannel();
+function yieldNow() { return new Promise((r) => { yieldChannel.port1.onmessage = () => r(); yieldChannel.port2.postMessage(0); }); }
+
+// Detection trial: one replication per call into the core, progress after each, Cancel between.
+async function runTrial(id, settings) {
+  cancelled = false;
+  const t0 = performance.now();
+  const info = session.trialStart(settings || {});
+  const total = info.replications;
+  let last = 0;
+  post({ progress: true, trial: true, id, done: 0, total });
+  for (let r = 0; r < total; r++) {
+    if (cancelled) { session.trialStop(); post({ id, ok: false, cancelled: true }); return; }
+    session.trialStep();
+    const now = performance.now();
+    if (now - last > 40 || r + 1 === total) { last = now; post({ progress: true, trial: true, id, done: r + 1, total, ms: now - t0 }); }
+    await yieldNow();
+  }
+  const report = session.trialReport();
+  post({ id, ok: true, value: { report, ms: performance.now() - t0, pool: info.pool } });
+}
+
 const handlers = {
   async preview({ id, file, options }) {
     const head = new Uint8Array(await file.slice(0, 65536).arrayBuffer());
@@ -67,6 +90,7 @@ const handlers = {
   async exportSuppliers({ id, fileName }) { post({ id, ok: true, value: session.suppliersCsv(fileName) }); },
   async exportPull({ id, items, fileName }) { post({ id, ok: true, value: session.pullCsv(items, fileName) }); },
   async watch({ id, settings }) { post({ id, ok: true, value: session.watch(settings || {}) }); },
+  async trial({ id, settings }) { return runTrial(id, settings); },
   async detail({ id, supplier }) { post({ id, ok: true, value: session.supplierDetail(supplier) }); },
   async members({ id, supplier, test, bin }) { post({ id, ok: true, value: session.binMembers(supplier, test, bin) }); },
   async invoicesAt({ id, supplier, indices }) { post({ id, ok: true, value: session.invoicesAt(supplier, new Uint32Array(indices)) }); },

@@ -279,7 +279,8 @@ pub fn draw_scatter(canvas: HtmlCanvasElement, spec: JsValue) -> Result<JsValue,
                 let (y, m, _) = digitdrift_core::intake::civil_from_days(v.round() as i32);
                 format!("{y}-{m:02}")
             } else {
-                format!("{v}")
+                // Rounded so that steps like 0.1 + 0.2 do not print as 0.30000000000000004.
+                format!("{}", (v * 1e6).round() / 1e6)
             }
         })
         .x_desc(s.x_label.as_str())

@@ -73,6 +73,8 @@ pub struct Session {
     min_amount: Amount,
     report: Option<report::ScreenReport>,
     fingerprint: digitdrift_core::export::Fingerprint,
+    /// The detection trial in progress: it reads the ledger, never changes it.
+    trial: Option<digitdrift_core::trial::Trial>,
 }
 
 #[wasm_bindgen]
@@ -80,7 +82,7 @@ impl Session {
     #[wasm_bindgen(constructor)]
     pub fn new(options: JsValue) -> Result<Session, JsValue> {
         let o = intake_options(options)?;
-        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default() })
+        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None })
     }
 
     /// Feed the next chunk of the file, in order.
@@ -216,6 +218,43 @@ impl Session {
         to_js(&self.rows(&invs, &idx))
     }
 
+    /// Prepare a detection trial on a copy of the ledger (the session's ledger and screen are
+    /// never changed). `settings`: {pattern, share (0..1), from (ISO date), replications, seed,
+    /// suppliers: "consistent" | "all", controls (0..1), limit, screen: the screen settings}.
+    /// Returns {replications, pool, levels}.
+    #[wasm_bindgen(js_name = trialStart)]
+    pub fn trial_start(&mut self, settings: JsValue) -> Result<JsValue, JsValue> {
+        self.trial = None;
+        let (o, pool) = self.trial_options(settings)?;
+        if pool.is_empty() {
+            return Err(err("no supplier to place invented invoices in: choose every supplier instead"));
+        }
+        let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
+        let t = digitdrift_core::trial::Trial::new(&r.ledger, o, &pool).map_err(err)?;
+        let out = serde_json::json!({"replications": t.options().replications, "pool": pool.len(), "levels": t.levels()});
+        self.trial = Some(t);
+        to_js(&out)
+    }
+
+    /// Run ONE replication of the prepared trial (the Worker calls this in a loop, reporting
+    /// progress and honouring Cancel between calls). Returns how many are done.
+    #[wasm_bindgen(js_name = trialStep)]
+    pub fn trial_step(&mut self) -> Result<u32, JsValue> {
+        Ok(self.trial.as_mut().ok_or_else(|| err("no trial prepared"))?.run_replication())
+    }
+
+    /// The trial's summary over the replications done so far (reported apart from the screen).
+    #[wasm_bindgen(js_name = trialReport)]
+    pub fn trial_report(&self) -> Result<JsValue, JsValue> {
+        to_js(&self.trial.as_ref().ok_or_else(|| err("no trial prepared"))?.report())
+    }
+
+    /// Drop the trial (after Cancel).
+    #[wasm_bindgen(js_name = trialStop)]
+    pub fn trial_stop(&mut self) {
+        self.trial = None;
+    }
+
     /// Invoices by index within one population (as listed by the amount checks).
     #[wasm_bindgen(js_name = invoicesAt)]
     pub fn invoices_at(&self, supplier: i32, indices: Vec<u32>) -> Result<JsValue, JsValue> {
@@ -226,6 +265,70 @@ impl Session {
 }
 
 impl Session {
+    fn trial_options(&self, v: JsValue) -> Result<(digitdrift_core::trial::TrialOptions, Vec<u32>), JsValue> {
+        use digitdrift_core::trial::{consistent_suppliers, Pattern, TrialOptions};
+        #[derive(Deserialize, Default)]
+        #[serde(default)]
+        struct T {
+            pattern: Option<String>,
+            share: Option<f64>,
+            from: Option<String>,
+            replications: Option<u32>,
+            seed: Option<f64>,
+            suppliers: Option<String>,
+            controls: Option<f64>,
+            limit: Option<String>,
+            screen: Option<serde_json::Value>,
+        }
+        let t: T = if v.is_undefined() || v.is_null() { T::default() } else { serde_wasm_bindgen::from_value(v).map_err(err)? };
+        let r = self.result.as_ref().ok_or_else(|| err("the trial needs a ledger (a digit-count table has no invoices to replace)"))?;
+        let sopts = match &t.screen {
+            Some(sv) => screen_options(to_js(sv)?)?,
+            None => report::ScreenOptions::default(),
+        };
+        let mut o = TrialOptions::default();
+        if let Some(p) = t.pattern.filter(|p| !p.trim().is_empty()) {
+            o.pattern = Pattern::parse(&p).ok_or_else(|| err(format!("unknown pattern '{p}'")))?;
+        }
+        if let Some(x) = t.share {
+            if !(0.0..=1.0).contains(&x) {
+                return Err(err("the share of invented invoices must be between 0 and 100 %"));
+            }
+            o.share = x;
+        }
+        if let Some(d) = t.from.filter(|d| !d.trim().is_empty()) {
+            let p: Vec<&str> = d.trim().split('-').collect();
+            let parsed = (p.len() == 3)
+                .then(|| Some((p[0].parse::<i32>().ok()?, p[1].parse::<u32>().ok()?, p[2].parse::<u32>().ok()?)))
+                .flatten()
+                .ok_or_else(|| err(format!("start date '{d}' is not YYYY-MM-DD")))?;
+            o.from = Some(digitdrift_core::intake::days_from_civil(parsed.0, parsed.1, parsed.2));
+        }
+        if let Some(n) = t.replications {
+            o.replications = n.clamp(1, 10_000);
+        }
+        if let Some(sd) = t.seed {
+            o.seed = sd.max(0.0) as u64;
+        }
+        if let Some(c) = t.controls {
+            if !(0.0..1.0).contains(&c) {
+                return Err(err("the share left untouched must be at least 0 and below 100 %"));
+            }
+            o.controls = c;
+        }
+        o.limit = match t.limit.filter(|l| !l.trim().is_empty()) {
+            Some(l) => Some(Amount(digitdrift_core::intake::parse_amount_simple(&l).ok_or_else(|| err(format!("approval limit: cannot read '{l}'")))?.0.abs())),
+            None => sopts.battery.approval_limits.first().copied(),
+        };
+        o.calibration = sopts.calibration.clone().unwrap_or_default();
+        o.min_amount = self.min_amount;
+        let pool = match t.suppliers.as_deref() {
+            Some("all") => (0..r.ledger.suppliers.len() as u32).filter(|&s| r.ledger.invoices_of(s).next().is_some()).collect(),
+            _ => consistent_suppliers(self.report.as_ref().ok_or_else(|| err("no screen yet"))?),
+        };
+        Ok((o, pool))
+    }
+
     fn population(&self, supplier: i32) -> Result<Vec<&Invoice>, JsValue> {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         Ok(match supplier {
