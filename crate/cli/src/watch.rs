@@ -1,5 +1,10 @@
 //! `digitdrift watch FILE [--as-of YYYY-MM-DD] [--confidence 0.95] [--arl-years 100]
-//! [intake flags] [--format json|text]`: continuous monitoring for scheduled runs.
+//! [--period month|year|day] [intake flags] [--format json|text]`: continuous monitoring for
+//! scheduled runs.
+//!
+//! FILE may also be a digit-count table with a `period` column (detected by its header, as
+//! `screen` does): the monitor then runs at period granularity (`monitor::watch_periods`).
+//! `--period` on a ledger reports each supplier's evidence at the end of every period.
 //!
 //! Exit status: 0 when no supplier is in alarm, 3 when one or more are (as of `--as-of` when
 //! given, otherwise at the end of the file), 2 on bad input (the `Err` path).
@@ -7,7 +12,7 @@
 use crate::args::Args;
 use crate::common::{format_flag, intake_options, read_ledger};
 use digitdrift_core::intake::{days_from_civil, format_date};
-use digitdrift_core::monitor::{self, WatchOptions};
+use digitdrift_core::monitor::{self, PeriodKind, WatchOptions};
 
 /// Strict ISO date `YYYY-MM-DD` (a real calendar day) to days since 1970-01-01.
 pub fn parse_iso_day(s: &str) -> Option<i32> {
@@ -26,6 +31,14 @@ pub fn parse_iso_day(s: &str) -> Option<i32> {
     let days = days_from_civil(y, m, d);
     // Reject days that do not exist (e.g. 2023-02-30) by the round trip.
     (format_date(days) == s).then_some(days)
+}
+
+/// Does the file start with a digit-count table header?
+fn is_count_table_file(file: &str) -> Result<bool, String> {
+    use std::io::Read;
+    let mut head = vec![0u8; 4096];
+    let k = std::fs::File::open(file).and_then(|mut f| f.read(&mut head)).map_err(|e| format!("{file}: {e}"))?;
+    Ok(digitdrift_core::counts::is_count_table(&head[..k]))
 }
 
 pub fn run(raw: &[String]) -> Result<u8, String> {
@@ -48,12 +61,30 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
     if let Some(d) = a.get("as-of") {
         opts.as_of = Some(parse_iso_day(d).ok_or_else(|| format!("--as-of takes a date as YYYY-MM-DD, not '{d}'"))?);
     }
+    opts.period_points = match a.get("period") {
+        None => None,
+        Some("month") => Some(PeriodKind::Month),
+        Some("year") => Some(PeriodKind::Year),
+        Some("day") => Some(PeriodKind::Day),
+        Some(v) => return Err(format!("--period takes month, year or day, not '{v}'")),
+    };
     a.finish()?;
     let [file] = a.positionals.as_slice() else {
         return Err("watch takes exactly one FILE".into());
     };
-    let res = read_ledger(file, intake)?;
-    let rep = monitor::watch(&res.ledger, &opts);
+    let rep = if file != "-" && is_count_table_file(file)? {
+        let bytes = std::fs::read(file).map_err(|e| format!("{file}: {e}"))?;
+        let t = digitdrift_core::counts::read(&bytes).map_err(|e| format!("{file}: {e}"))?;
+        if !t.has_period {
+            return Err(format!(
+                "{file}: this digit-count table has no 'period' column; monitoring needs counts per period (see the README for the monthly SQL)"
+            ));
+        }
+        monitor::watch_periods(&t, &opts)
+    } else {
+        let res = read_ledger(file, intake)?;
+        monitor::watch(&res.ledger, &opts)
+    };
     if json {
         println!("{}", serde_json::to_string_pretty(&rep).map_err(|e| e.to_string())?);
     } else {

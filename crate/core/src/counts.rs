@@ -5,6 +5,10 @@
 //! from the raw file.
 //!
 //! The SQL that makes the table (DuckDB; portable to other engines) is in the README.
+//!
+//! With a `period` column (`YYYY-MM` for a month, `YYYY` for a year, `YYYY-MM-DD` for a day)
+//! the counts are also kept per period, and `monitor::watch_periods` runs the monitor at period
+//! granularity (`digitdrift watch` on such a table).
 
 use crate::amount::Amount;
 use crate::battery::{Battery, DigitTest, Summation};
@@ -26,6 +30,48 @@ pub struct SupplierCounts {
     pub sums: [Amount; 90],
     /// Smallest and largest amount, when the table has `amount_min` / `amount_max` columns.
     pub range: Option<(Amount, Amount)>,
+    /// Counts per period, in period order (empty without a `period` column).
+    pub periods: Vec<PeriodCounts>,
+}
+
+/// One supplier's counts in one period.
+#[derive(Clone, Debug)]
+pub struct PeriodCounts {
+    /// The period as written in the table (`2024-03`, `2024` or `2024-03-31`).
+    pub label: String,
+    /// First and last day of the period (days since 1970-01-01).
+    pub first_day: i32,
+    pub last_day: i32,
+    pub counts: [u64; 90],
+    pub sums: [Amount; 90],
+}
+
+/// A period label to its first and last day: `YYYY-MM` (a month), `YYYY` (a year) or
+/// `YYYY-MM-DD` (a day). `None` for anything else.
+pub fn parse_period(s: &str) -> Option<(i32, i32)> {
+    use crate::intake::{days_from_civil, format_date};
+    let s = s.trim();
+    let num = |t: &str| -> Option<u32> { (!t.is_empty() && t.bytes().all(|c| c.is_ascii_digit())).then(|| t.parse().ok()).flatten() };
+    let parts: Vec<&str> = s.split('-').collect();
+    match parts.as_slice() {
+        [y] if y.len() == 4 => {
+            let y = num(y)? as i32;
+            Some((days_from_civil(y, 1, 1), days_from_civil(y, 12, 31)))
+        }
+        [y, m] if y.len() == 4 && m.len() == 2 => {
+            let (y, m) = (num(y)? as i32, num(m)?);
+            if !(1..=12).contains(&m) {
+                return None;
+            }
+            let next = if m == 12 { days_from_civil(y + 1, 1, 1) } else { days_from_civil(y, m + 1, 1) };
+            Some((days_from_civil(y, m, 1), next - 1))
+        }
+        [y, m, d] if y.len() == 4 && m.len() == 2 && d.len() == 2 => {
+            let day = days_from_civil(num(y)? as i32, num(m)?, num(d)?);
+            (format_date(day) == s).then_some((day, day))
+        }
+        _ => None,
+    }
 }
 
 #[derive(Clone, Debug, Default)]
@@ -57,6 +103,9 @@ pub fn read(bytes: &[u8]) -> Result<CountTable, String> {
     let col = |n: &str| headers.iter().position(|h| h == n).ok_or_else(|| format!("count table has no '{n}' column"));
     let (cs, cd, cn, ca) = (col("supplier")?, col("first_two")?, col("invoices")?, col("amount")?);
     let (cmin, cmax) = (col("amount_min").ok(), col("amount_max").ok());
+    let cper = col("period").ok();
+    // (supplier, period label) -> index into that supplier's periods
+    let mut pindex: HashMap<(usize, String), usize> = HashMap::new();
     let mut t = CountTable { has_period: headers.iter().any(|h| h == "period"), ..Default::default() };
     let mut index: HashMap<String, usize> = HashMap::new();
     for rec in rdr.records() {
@@ -76,14 +125,34 @@ pub fn read(bytes: &[u8]) -> Result<CountTable, String> {
             t.bad_rows.push((line, "supplier empty".into()));
             continue;
         }
+        let period = match cper {
+            None => None,
+            Some(c) => match parse_period(get(c)) {
+                Some(fl) => Some((get(c).to_string(), fl)),
+                None => {
+                    t.bad_rows.push((line, "period must be YYYY-MM (a month), YYYY (a year) or YYYY-MM-DD (a day)".into()));
+                    continue;
+                }
+            },
+        };
         let key = supplier_key(name);
         let i = *index.entry(key).or_insert_with(|| {
-            t.suppliers.push(SupplierCounts { name: name.to_string(), counts: [0; 90], sums: [Amount::ZERO; 90], range: None });
+            t.suppliers.push(SupplierCounts { name: name.to_string(), counts: [0; 90], sums: [Amount::ZERO; 90], range: None, periods: Vec::new() });
             t.suppliers.len() - 1
         });
         let s = &mut t.suppliers[i];
         s.counts[(d - 10) as usize] += n;
         s.sums[(d - 10) as usize] = s.sums[(d - 10) as usize].saturating_add(a);
+        if let Some((label, (first_day, last_day))) = period {
+            let np = s.periods.len();
+            let j = *pindex.entry((i, label.clone())).or_insert(np);
+            if j == np {
+                s.periods.push(PeriodCounts { label, first_day, last_day, counts: [0; 90], sums: [Amount::ZERO; 90] });
+            }
+            let pc = &mut s.periods[j];
+            pc.counts[(d - 10) as usize] += n;
+            pc.sums[(d - 10) as usize] = pc.sums[(d - 10) as usize].saturating_add(a);
+        }
         if let (Some(lo), Some(hi)) = (cmin.and_then(|c| parse_amount_simple(get(c))), cmax.and_then(|c| parse_amount_simple(get(c)))) {
             s.range = Some(match s.range {
                 None => (lo, hi),
@@ -93,6 +162,12 @@ pub fn read(bytes: &[u8]) -> Result<CountTable, String> {
     }
     if t.suppliers.is_empty() {
         return Err("the count table has no usable rows".into());
+    }
+    for s in &mut t.suppliers {
+        s.periods.sort_by_key(|p| (p.last_day, p.first_day));
+        if let Some(w) = s.periods.windows(2).find(|w| w[1].first_day <= w[0].last_day) {
+            return Err(format!("supplier '{}': periods {} and {} overlap; use one kind of period (all months, all years or all days)", s.name, w[0].label, w[1].label));
+        }
     }
     Ok(t)
 }
@@ -157,7 +232,7 @@ fn population(id: u32, s: &SupplierCounts, opts: &ScreenOptions) -> SupplierResu
 pub fn screen(t: &CountTable, opts: &ScreenOptions) -> ScreenReport {
     let mut suppliers: Vec<SupplierResult> =
         t.suppliers.iter().enumerate().map(|(i, s)| population(i as u32, s, opts)).collect();
-    let mut all = SupplierCounts { name: "(whole file)".into(), counts: [0; 90], sums: [Amount::ZERO; 90], range: None };
+    let mut all = SupplierCounts { name: "(whole file)".into(), counts: [0; 90], sums: [Amount::ZERO; 90], range: None, periods: Vec::new() };
     for s in &t.suppliers {
         for i in 0..90 {
             all.counts[i] += s.counts[i];
@@ -171,7 +246,7 @@ pub fn screen(t: &CountTable, opts: &ScreenOptions) -> ScreenReport {
     let mut rows = Accounting::default();
     rows.read = whole.invoices;
     rows.analysed = whole.invoices;
-    let empty = SupplierCounts { name: "(credit notes)".into(), counts: [0; 90], sums: [Amount::ZERO; 90], range: None };
+    let empty = SupplierCounts { name: "(credit notes)".into(), counts: [0; 90], sums: [Amount::ZERO; 90], range: None, periods: Vec::new() };
     ScreenReport {
         rows,
         intake: IntakeInfo {

@@ -72,6 +72,7 @@
 
 use crate::amount::Amount;
 use crate::benford;
+use crate::counts::CountTable;
 use crate::intake::{civil_from_days, format_date};
 use crate::ledger::{Invoice, Ledger, NO_DATE};
 use serde::Serialize;
@@ -382,6 +383,42 @@ impl<'a> Monitor<'a> {
     #[cold]
     fn rescale(&mut self) {
         let k = self.fam.len();
+        if self.sum_w == 0.0 && self.n > 0 {
+            // Every surviving component met a bin its alternative gives probability 0 (the others
+            // had been flushed or had underflowed): recompute the components exactly from the
+            // counts (the closed form), in log space.
+            let kp = self.fam.k_pad;
+            let lw: Vec<f64> = (0..k)
+                .map(|j| {
+                    let mut v = self.fam.weights[j].ln();
+                    for b in 0..BINS {
+                        if self.counts[b] > 0 {
+                            v += self.counts[b] as f64 * self.fam.log_ratio[b * kp + j];
+                        }
+                    }
+                    v
+                })
+                .collect();
+            let m = lw.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
+            let w = self.w.as_flattened_mut();
+            for j in 0..k {
+                w[j] = (lw[j] - m).exp();
+            }
+            self.sum_w = w.iter().sum();
+            self.scale_w = m;
+            self.thr_w = (self.log_thr_w - self.scale_w).exp();
+        }
+        if self.sum_r == 0.0 && self.n > 0 && self.sum_w > 0.0 {
+            // The same for the change detector: restart it at R' = E, which is below the true
+            // R (each R_k contains the term W_k of a change at the first invoice); a lower
+            // statistic can only delay an alarm, so the run-length bound still holds.
+            let w = self.w.as_flattened().to_vec();
+            self.r.as_flattened_mut().copy_from_slice(&w);
+            self.sum_r = self.sum_w;
+            self.scale_r = self.scale_w;
+            self.thr_r = (self.log_thr_r - self.scale_r).exp();
+            self.pi_r = if self.scale_r > 600.0 { 0.0 } else { (-self.scale_r).exp() / k as f64 };
+        }
         if self.sum_w > 0.0 && !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_w) {
             let s = self.sum_w;
             for v in self.w.as_flattened_mut() {
@@ -415,6 +452,48 @@ impl<'a> Monitor<'a> {
                 *v = 0.0;
             }
         }
+    }
+
+    /// Add a whole period of invoices given only their first-two counts (order unknown). The
+    /// since-the-start components are multiplied by the period's likelihood ratio
+    /// `Λ_k = Π q_k/p = exp(Σ_b n_b ln(q_k(b)/p(b)))` — the same product the invoices would give
+    /// one by one in any order, so `E` at the period end is exactly the invoice-level value. The
+    /// change detector runs over periods: `R_k ← (R_k + 1)·Λ_k`, change points at period starts
+    /// only (under Benford `E[Λ_k] = 1`, so `R − (periods)` is again a martingale and the run
+    /// length bound holds in periods). Crossings are checked at the period end only.
+    pub fn push_counts(&mut self, counts: &[u64; BINS]) -> Crossing {
+        let k = self.fam.len();
+        let kp = self.fam.k_pad;
+        let mut l = vec![0.0f64; k];
+        for b in 0..BINS {
+            if counts[b] > 0 {
+                let c = counts[b] as f64;
+                for (j, lj) in l.iter_mut().enumerate() {
+                    *lj += c * self.fam.log_ratio[b * kp + j];
+                }
+            }
+        }
+        let m = l.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
+        let (w, r) = (self.w.as_flattened_mut(), self.r.as_flattened_mut());
+        for j in 0..k {
+            let f = (l[j] - m).exp();
+            w[j] *= f;
+            r[j] = (r[j] + self.pi_r) * f;
+        }
+        self.scale_w += m;
+        self.scale_r += m;
+        self.n += counts.iter().sum::<u64>();
+        for b in 0..BINS {
+            self.counts[b] += counts[b];
+        }
+        self.sum_w = self.w.as_flattened().iter().sum();
+        self.sum_r = self.r.as_flattened().iter().sum();
+        self.thr_w = (self.log_thr_w - self.scale_w).exp();
+        self.thr_r = (self.log_thr_r - self.scale_r).exp();
+        self.pi_r = if self.scale_r > 600.0 { 0.0 } else { (-self.scale_r).exp() / k as f64 };
+        // Renormalise (and recover from a statistic that became 0), as after an invoice.
+        self.rescale();
+        Crossing { since_start: self.sum_w >= self.thr_w, since_change: self.sum_r >= self.thr_r }
     }
 
     /// ln E(t): the since-the-start e-process now.
@@ -608,11 +687,43 @@ pub struct WatchOptions {
     pub arl_years: f64,
     /// Most points kept in each supplier's evidence trajectory (besides the alarm point). Default 400.
     pub trajectory_points: usize,
+    /// Report the trajectory at the end of every period of this kind (the last invoice dated in
+    /// it) instead of every n-th invoice: what a count table with periods can be compared with.
+    pub period_points: Option<PeriodKind>,
+}
+
+/// Calendar periods for evidence at period ends.
+#[derive(Clone, Copy, Debug, Serialize, PartialEq, Eq)]
+pub enum PeriodKind {
+    Day,
+    Month,
+    Year,
+}
+
+impl PeriodKind {
+    /// The period label of a day, as a count table writes it (`2024-03-31`, `2024-03`, `2024`).
+    pub fn label(self, day: i32) -> String {
+        let t = format_date(day);
+        match self {
+            PeriodKind::Day => t,
+            PeriodKind::Month => t[..7].to_string(),
+            PeriodKind::Year => t[..4].to_string(),
+        }
+    }
+    /// A number identifying the period of a day (equal for days of the same period).
+    fn key(self, day: i32) -> i64 {
+        let (y, m, _) = civil_from_days(day);
+        match self {
+            PeriodKind::Day => day as i64,
+            PeriodKind::Month => y as i64 * 12 + m as i64,
+            PeriodKind::Year => y as i64,
+        }
+    }
 }
 
 impl Default for WatchOptions {
     fn default() -> Self {
-        WatchOptions { confidence: 0.95, as_of: None, arl_years: 100.0, trajectory_points: 400 }
+        WatchOptions { confidence: 0.95, as_of: None, arl_years: 100.0, trajectory_points: 400, period_points: None }
     }
 }
 
@@ -642,6 +753,8 @@ pub struct TrajectoryPoint {
     pub since_change_log: f64,
     /// True on the point of the alarm.
     pub alarm: bool,
+    /// The period this point ends (e.g. `2024-03`), when evidence is reported at period ends.
+    pub period: Option<String>,
 }
 
 /// Estimate of the fabricated part of an alarmed supplier's payments. An estimate, not a finding.
@@ -947,7 +1060,7 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
     let (mut recs, start, undated_of) = group(ledger);
     let mut mon = Monitor::new(&fam, log_thr_start, log_thr_start);
     let mut suppliers = Vec::new();
-    let mut notes = Vec::new();
+    let notes = Vec::new();
     let mut replay_rows = Vec::new();
     let mut undated_total = 0u64;
     let (mut scratch, mut cnt) = (Vec::new(), Vec::new());
@@ -1014,9 +1127,17 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
                 is_alarm = true;
             }
             to_next_point -= 1;
-            let regular = to_next_point == 0;
+            let mut regular = to_next_point == 0;
             if regular {
                 to_next_point = step;
+            }
+            let mut period = None;
+            if let (Some(kind), true) = (opts.period_points, by_date) {
+                let ends = pos + 1 == n as usize || kind.key(order_buf[pos + 1].date) != kind.key(v.date);
+                regular = ends;
+                if ends {
+                    period = Some(kind.label(v.date));
+                }
             }
             if is_alarm || regular || pos + 1 == n as usize {
                 traj.push(TrajectoryPoint {
@@ -1025,6 +1146,7 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
                     since_start_log: mon.log_since_start(),
                     since_change_log: mon.log_since_change(),
                     alarm: is_alarm,
+                    period,
                 });
             }
         }
@@ -1125,6 +1247,12 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
             estimate,
         });
     }
+    assemble(suppliers, replay_rows, notes, undated_total, opts, fam.len())
+}
+
+/// Notes, ranking, amount at risk and replay: the part of the report shared by [`watch`] and
+/// [`watch_periods`].
+fn assemble(mut suppliers: Vec<SupplierWatch>, mut replay_rows: Vec<ReplaySupplier>, mut notes: Vec<String>, undated_total: u64, opts: &WatchOptions, alternatives: usize) -> WatchReport {
     if undated_total > 0 {
         notes.push(format!(
             "{undated_total} invoices have no date: suppliers with undated invoices are read in file order only, get no alarm date, and are left out of the replay; their run length assumes the file covers one year"
@@ -1167,7 +1295,7 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
     WatchReport {
         confidence: opts.confidence,
         arl_years: opts.arl_years,
-        alternatives: fam.len(),
+        alternatives,
         method: METHOD.to_vec(),
         notes,
         suppliers_watched: suppliers.len() as u64,
@@ -1177,6 +1305,204 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
         amount_at_risk,
         caution: CAUTION,
     }
+}
+
+/// The monitor at period granularity, from a digit-count table with a `period` column (see
+/// [`crate::counts`]). Within a period the order of the invoices is unknown, so evidence is
+/// evaluated only at period ends ([`Monitor::push_counts`]): the since-the-start e-process there
+/// equals the invoice-level one evaluated at the same period end (a product of per-invoice
+/// likelihood ratios does not depend on their order), and Ville's inequality still bounds the
+/// chance that it ever crosses (it is looked at less often, never more). The change detector
+/// takes change points at period starts and has an average run length of at least c periods,
+/// c = run-length years × the supplier's periods with invoices per year. The alarm date is the
+/// last day of the period in which the evidence crosses; invoices and amount "before the alarm"
+/// are those up to the end of that period.
+pub fn watch_periods(t: &CountTable, opts: &WatchOptions) -> WatchReport {
+    let fam = Family::standard();
+    let alpha = (1.0 - opts.confidence).clamp(1e-12, 0.5);
+    let log_thr_start = (1.0 / alpha).ln();
+    let mut mon = Monitor::new(&fam, log_thr_start, log_thr_start);
+    let mut suppliers = Vec::new();
+    let mut replay_rows = Vec::new();
+    let traj_max = opts.trajectory_points.max(2);
+    let p = benford::first_two();
+    for (sid, sc) in t.suppliers.iter().enumerate() {
+        let per = &sc.periods;
+        if per.is_empty() {
+            continue;
+        }
+        let n: u64 = per.iter().map(|x| x.counts.iter().sum::<u64>()).sum();
+        let (first, last) = (per[0].first_day, per[per.len() - 1].last_day);
+        let span_years = ((last - first + 1) as f64 / 365.25).max(1.0);
+        let periods_per_year = per.len() as f64 / span_years;
+        let c = (opts.arl_years * periods_per_year).max(1.0 / alpha);
+        let log_c = c.ln();
+        mon.reset(log_thr_start, log_c);
+        let step = per.len().div_ceil(traj_max).max(1);
+        let mut traj = Vec::new();
+        let (mut cum_n, mut total) = (0u64, Amount::ZERO);
+        let mut cum_at: Vec<(u64, Amount)> = Vec::with_capacity(per.len());
+        let mut alarm: Option<(usize, &'static str)> = None;
+        let (mut ss_alarm, mut sc_alarm) = (None, None);
+        let mut lead_k = 0usize;
+        let mut asof_state: Option<(usize, u64, Amount, f64, f64)> = None;
+        for (i, x) in per.iter().enumerate() {
+            if let Some(a) = opts.as_of {
+                if asof_state.is_none() && x.last_day > a {
+                    asof_state = Some((i, cum_n, total, mon.log_since_start(), mon.log_since_change()));
+                }
+            }
+            let cr = mon.push_counts(&x.counts);
+            cum_n += x.counts.iter().sum::<u64>();
+            total = x.sums.iter().fold(total, |t, &v| t.saturating_add(v));
+            cum_at.push((cum_n, total));
+            if cr.since_start && ss_alarm.is_none() {
+                ss_alarm = Some(i);
+            }
+            if cr.since_change && sc_alarm.is_none() {
+                sc_alarm = Some(i);
+            }
+            let mut is_alarm = false;
+            if alarm.is_none() && (cr.since_start || cr.since_change) {
+                alarm = Some((i, if cr.since_start { "since_start" } else { "since_change" }));
+                lead_k = mon.leading_change_alternative();
+                is_alarm = true;
+            }
+            if is_alarm || (i + 1) % step == 0 || i + 1 == per.len() {
+                traj.push(TrajectoryPoint {
+                    invoice: cum_n,
+                    date: days_opt(x.last_day),
+                    since_start_log: mon.log_since_start(),
+                    since_change_log: mon.log_since_change(),
+                    alarm: is_alarm,
+                    period: Some(x.label.clone()),
+                });
+            }
+        }
+        if opts.as_of.is_some() && asof_state.is_none() {
+            asof_state = Some((per.len(), cum_n, total, mon.log_since_start(), mon.log_since_change()));
+        }
+        let evidence_now = Evidence {
+            since_start_log: mon.log_since_start(),
+            since_start_threshold_log: log_thr_start,
+            since_change_log: mon.log_since_change(),
+            since_change_threshold_log: log_c,
+            run_length_invoices: c,
+            run_length_years: c / periods_per_year,
+        };
+        let date_at = |i: usize| days_opt(per[i].last_day);
+        let paid_before = alarm.map_or(Amount::ZERO, |(i, _)| cum_at[i].1);
+        let estimate = alarm.map(|(apos, which)| {
+            // Start of the deviation: last restart of a period-level CUSUM with the leading
+            // alternative, as for invoices.
+            let from = if which == "since_start" {
+                0
+            } else {
+                let (mut m, mut start) = (0.0f64, 0usize);
+                for (i, x) in per[..=apos].iter().enumerate() {
+                    if m < 1.0 {
+                        m = 1.0;
+                        start = i;
+                    }
+                    let ll: f64 = (0..BINS).filter(|&b| x.counts[b] > 0).map(|b| x.counts[b] as f64 * fam.ratio(lead_k, b).ln()).sum();
+                    m = (m.ln() + ll).exp();
+                }
+                start
+            };
+            let mut counts = [0u64; BINS];
+            let mut sums = [0.0f64; BINS];
+            let mut paid = Amount::ZERO;
+            for x in &per[from..] {
+                for b in 0..BINS {
+                    counts[b] += x.counts[b];
+                    sums[b] += x.sums[b].to_f64();
+                    paid = paid.saturating_add(x.sums[b]);
+                }
+            }
+            let wn: u64 = counts.iter().sum();
+            // Amounts are not in a count table: the even spread is chosen among the standard
+            // ranges (scale-free for first-two digits) and the whole decade by likelihood, and
+            // placed at the power of ten of the window's mean amount.
+            let mut best: Option<(f64, f64, f64, [f64; BINS])> = None;
+            for (lo, hi) in STANDARD_LOWS.iter().flat_map(|&a| STANDARD_SPANS.iter().map(move |&m| (a, a * m))).chain([(1.0, 10.0)]) {
+                let u = even_spread_first_two(lo, hi);
+                let mle = share_mle(&counts, &p, &u);
+                let ll = loglik(&counts, &p, &u, mle);
+                if best.as_ref().is_none_or(|b| ll > b.0) {
+                    best = Some((ll, lo, hi, u));
+                }
+            }
+            let (_, lo, hi, u) = best.expect("non-empty family");
+            let share = fabricated_share(&counts, &u, opts.confidence);
+            let mean = if wn > 0 { paid.to_f64() / wn as f64 } else { 1.0 };
+            let scale = if mean > 0.0 { 10f64.powi(mean.log10().floor() as i32) } else { 1.0 };
+            let expected = |lam: f64| -> f64 {
+                (0..BINS)
+                    .map(|b| {
+                        let num = lam * u[b];
+                        let den = (1.0 - lam) * p[b] + num;
+                        if den > 0.0 { sums[b] * num / den } else { 0.0 }
+                    })
+                    .sum()
+            };
+            let amt = |x: f64| Amount::from_scaled((x * 10_000.0).round() as i64, 4).unwrap_or(Amount::ZERO);
+            FabricatedEstimate {
+                window_from_invoice: if from == 0 { 1 } else { cum_at[from - 1].0 + 1 },
+                window_from_date: days_opt(per[from].first_day),
+                window_invoices: wn,
+                window_paid: paid,
+                even_spread_low: amt(lo * scale),
+                even_spread_high: amt(hi * scale),
+                amount: expected(share.mle),
+                amount_low: expected(share.low),
+                amount_high: expected(share.high),
+                share,
+            }
+        });
+        if let (Some((cut, n_so_far, paid_so_far, ls, lc)), Some((apos, which))) = (asof_state, alarm) {
+            if apos < cut {
+                replay_rows.push(ReplaySupplier {
+                    id: sid as u32,
+                    name: sc.name.clone(),
+                    alarm_date: date_at(apos),
+                    alarm_evidence: Some(which),
+                    invoices_so_far: n_so_far,
+                    paid_so_far,
+                    paid_since_alarm: Amount(paid_so_far.0 - paid_before.0),
+                    evidence: Evidence { since_start_log: ls, since_change_log: lc, ..evidence_now.clone() },
+                });
+            }
+        }
+        suppliers.push(SupplierWatch {
+            id: sid as u32,
+            name: sc.name.clone(),
+            invoices: n,
+            amount_total: total,
+            first_date: days_opt(first),
+            last_date: days_opt(last),
+            order: "period",
+            undated_invoices: 0,
+            invoices_per_year: n as f64 / span_years,
+            in_alarm: alarm.is_some(),
+            alarm_date: alarm.and_then(|(i, _)| date_at(i)),
+            alarm_invoice: alarm.map(|(i, _)| cum_at[i].0),
+            alarm_line: None,
+            alarm_evidence: alarm.map(|(_, w)| w),
+            since_start_alarm_date: ss_alarm.and_then(date_at),
+            since_change_alarm_date: sc_alarm.and_then(date_at),
+            invoices_before_alarm: alarm.map(|(i, _)| cum_at[i].0),
+            paid_before_alarm: alarm.map(|_| paid_before),
+            invoices_after_alarm: alarm.map(|(i, _)| n - cum_at[i].0),
+            paid_after_alarm: alarm.map(|_| Amount(total.0 - paid_before.0)),
+            evidence: evidence_now,
+            trajectory: traj,
+            estimate,
+        });
+    }
+    let notes = vec![
+        "digit-count table with periods: the order of invoices within a period is unknown, so evidence is evaluated only at period ends; the since-the-start evidence there equals the invoice-level value (a product of per-invoice likelihood ratios does not depend on their order); the change detector takes change points at period starts, its run length is counted in periods with invoices; alarm dates are period ends".to_string(),
+    ];
+    assemble(suppliers, replay_rows, notes, 0, opts, fam.len())
 }
 
 /// Readable summary for the terminal, ending with the caution.
