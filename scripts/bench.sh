@@ -2,33 +2,51 @@
 # Benchmarks side by side in one run (figures are never asserted in tests):
 #  - criterion benches of the core (intake MB/s, battery, calibration sims/s, replay);
 #  - the full screen of generated ledgers natively (CLI, max RSS) and in headless Chromium
-#    (the one-file page), with the wasm/native ratio;
-#  - DuckDB running only the first-two-digit group-by on the same file, for reference.
-# Usage: bash scripts/bench.sh [ROWS...]   (default: 100000 2000000)
+#    (the one-file page, chunked File.slice intake in its Worker), with the browser/native ratio;
+#  - DuckDB (both threads) running only the first-two-digit group-by on the same file, for reference.
+# Usage: bash scripts/bench.sh [ROWS...]    (default: 100000 2000000)
+#        bash scripts/bench.sh --gigabyte   (a ~1 GB ledger, 22,000,000 rows, screened in a tab;
+#                                           needs ~2.5 GB of disk in build/bench; not in CI)
+# Honours CARGO_TARGET_DIR. SKIP_CRITERION=1 skips the criterion benches.
 set -euo pipefail
 cd "$(dirname "$0")/.."
+T="${CARGO_TARGET_DIR:-target}"
+if [ "${1:-}" = "--gigabyte" ]; then ROWS=(100000 22000000); SKIP_CRITERION=1
+elif [ $# -gt 0 ]; then ROWS=("$@")
+else ROWS=(100000 2000000); fi
 bash scripts/setup.sh
-ROWS=("${@:-100000 2000000}")
-[ $# -gt 0 ] && ROWS=("$@") || ROWS=(100000 2000000)
 cargo build --release -p digitdrift
 bash scripts/build-web.sh >/dev/null
 mkdir -p build/bench
-if [ "${SKIP_CRITERION:-0}" != 1 ]; then cargo bench -p digitdrift-core 2>&1 | grep -E "^[a-z].*time:|thrpt:" || true; fi
-printf '\n%-10s %8s %10s %10s %10s %10s %10s\n' rows MB native_s browser_s ratio duckdb_s rss_MB
+if [ "${SKIP_CRITERION:-0}" != 1 ]; then cargo bench -p digitdrift-core 2>&1 | grep -E "^[a-z].*time:|^[a-z][a-z_/0-9]+$|^ +time:|thrpt:" || true; fi
+echo
+echo "machine: $(nproc) cores, $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | xargs), load average $(cut -d' ' -f1-3 /proc/loadavg)"
+printf '%-9s %7s %9s %9s %8s %8s %9s %9s %10s %8s %10s\n' rows MB native_s browser_s br/nat duckdb_s nat/duck nat_rssMB tab_peakMB jsheapMB analysed
+prev=""
 for n in "${ROWS[@]}"; do
   f=build/bench/ledger-$n.csv
   [ -f "$f" ] || python3 bench/gen_ledger.py "$n" "$f"
   mb=$(python3 -c "import os;print(round(os.path.getsize('$f')/1e6,1))")
-  /usr/bin/time -f '%e %M' -o build/bench/time.txt ./target/release/digitdrift screen "$f" --format json >/dev/null
+  /usr/bin/time -f '%e %M' -o build/bench/time.txt "$T/release/digitdrift" screen "$f" --format json > build/bench/screen.json
   read -r nat rss < build/bench/time.txt
-  br=$(node bench/browser.mjs "$f" | python3 -c "import json,sys;print(round(json.loads(sys.stdin.readline())['browser_seconds'],2))")
+  analysed=$(python3 -c "import json;print(json.load(open('build/bench/screen.json'))['rows']['analysed'])")
+  bj=$(node bench/browser.mjs "$f")
+  read -r br peak heap < <(python3 -c "import json,sys;j=json.loads(sys.argv[1]);print(round(j['browser_seconds'],2), round(j['renderer_peak_rss_mb']), round(j['page_js_heap_mb'],1))" "$bj")
   duck=$(python3 - "$f" <<'PY'
 import sys, time, duckdb
 f = sys.argv[1]
-sql = open('tests/reference/sql/first_two_counts.sql').read().replace('{LEDGER}', f).replace('"Supplier"', '"Supplier"')
+sql = open('tests/reference/sql/first_two_counts.sql').read().replace('{LEDGER}', f)
 t = time.perf_counter(); duckdb.connect().execute(sql).fetchall(); print(round(time.perf_counter() - t, 2))
 PY
 )
-  ratio=$(python3 -c "print(round($br/$nat,2))")
-  printf '%-10s %8s %10s %10s %10s %10s %10s\n' "$n" "$mb" "$nat" "$br" "$ratio" "$duck" "$((rss/1024))"
+  printf '%-9s %7s %9s %9s %8s %8s %9s %9s %10s %8s %10s\n' "$n" "$mb" "$nat" "$br" \
+    "$(python3 -c "print(round($br/$nat,2))")" "$duck" "$(python3 -c "print(round($nat/$duck,2))")" \
+    "$((rss/1024))" "$peak" "$heap" "$analysed"
+  if [ -n "$prev" ]; then
+    read -r pa prss ppeak <<< "$prev"
+    python3 -c "
+da=$analysed-$pa
+print(f'  marginal memory per analysed row from {$pa:,} to {$analysed:,} rows: native {($rss-$prss)*1024/da:.1f} bytes, tab {($peak-$ppeak)*1048576/da:.1f} bytes (max RSS and renderer peak; includes names and per-supplier state)')"
+  fi
+  prev="$analysed $rss $peak"
 done
