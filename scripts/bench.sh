@@ -18,14 +18,18 @@ bash scripts/setup.sh
 cargo build --release -p digitdrift
 bash scripts/build-web.sh >/dev/null
 mkdir -p build/bench
-if [ "${SKIP_CRITERION:-0}" != 1 ]; then cargo bench -p digitdrift-core 2>&1 | grep -E "^[a-z].*time:|^[a-z][a-z_/0-9]+$|^ +time:|thrpt:" || true; fi
+# criterion: keep bench names and their time/thrpt lines, drop progress and change-vs-last-run lines
+if [ "${SKIP_CRITERION:-0}" != 1 ]; then
+  cargo bench -p digitdrift-core 2>&1 | grep -vE '^(Benchmarking|Compiling|Finished|Running|Warning|Found|Gnuplot|WARNING)|^ *(change:|Performance|No change|Change within)|%|^ +[0-9]+ \(|^ *(low|high) (mild|severe)|^$' || true
+fi
 echo
 echo "machine: $(nproc) cores, $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | xargs), load average $(cut -d' ' -f1-3 /proc/loadavg)"
 printf '%-9s %7s %9s %9s %8s %8s %9s %9s %10s %8s %10s\n' rows MB native_s browser_s br/nat duckdb_s nat/duck nat_rssMB tab_peakMB jsheapMB analysed
 prev=""
 for n in "${ROWS[@]}"; do
   f=build/bench/ledger-$n.csv
-  [ -f "$f" ] || python3 bench/gen_ledger.py "$n" "$f"
+  # generate to a temporary name: an interrupted run must not leave a partial ledger to reuse
+  [ -f "$f" ] || { python3 bench/gen_ledger.py "$n" "$f.part" && mv "$f.part" "$f"; }
   mb=$(python3 -c "import os;print(round(os.path.getsize('$f')/1e6,1))")
   /usr/bin/time -f '%e %M' -o build/bench/time.txt "$T/release/digitdrift" screen "$f" --format json > build/bench/screen.json
   read -r nat rss < build/bench/time.txt
