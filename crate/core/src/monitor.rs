@@ -1058,18 +1058,54 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
     let alpha = (1.0 - opts.confidence).clamp(1e-12, 0.5);
     let log_thr_start = (1.0 / alpha).ln();
     let (mut recs, start, undated_of) = group(ledger);
-    let mut mon = Monitor::new(&fam, log_thr_start, log_thr_start);
+    let lines_in_order = ledger.invoices.windows(2).all(|w| w[0].line <= w[1].line);
+    let ctx = ShardContext { ledger, opts, fam: &fam, alpha, log_thr_start, lines_in_order, undated_of: &undated_of, start: &start };
+    // Suppliers are independent: two shards (split at a supplier boundary near half of the
+    // invoices) run on two threads where the platform has them; the results are joined in
+    // supplier order, so the report is the same as from one thread.
+    let ns = ledger.suppliers.len();
+    let mid = (0..=ns).find(|&k| start[k] >= recs.len() / 2).unwrap_or(ns);
+    let (ra, rb) = recs.split_at_mut(start[mid]);
+    let two = cfg!(not(target_arch = "wasm32")) && ra.len().min(rb.len()) >= 50_000 && std::thread::available_parallelism().map_or(1, |n| n.get()) > 1;
+    let ((mut suppliers, mut replay_rows, ua), (sb, rpb, ub)) = if two {
+        std::thread::scope(|sc| {
+            let h = sc.spawn(|| replay_shard(&ctx, rb, mid..ns, start[mid]));
+            let first = replay_shard(&ctx, ra, 0..mid, 0);
+            (first, h.join().expect("replay thread"))
+        })
+    } else {
+        (replay_shard(&ctx, ra, 0..mid, 0), replay_shard(&ctx, rb, mid..ns, start[mid]))
+    };
+    suppliers.extend(sb);
+    replay_rows.extend(rpb);
+    assemble(suppliers, replay_rows, Vec::new(), ua + ub, opts, fam.len())
+}
+
+/// What every shard of the replay reads.
+struct ShardContext<'a> {
+    ledger: &'a Ledger,
+    opts: &'a WatchOptions,
+    fam: &'a Family,
+    alpha: f64,
+    log_thr_start: f64,
+    lines_in_order: bool,
+    undated_of: &'a [u64],
+    start: &'a [usize],
+}
+
+/// The replay of suppliers `sids`, whose records are `recs` (starting at record `base`).
+fn replay_shard(ctx: &ShardContext, recs: &mut [Rec], sids: std::ops::Range<usize>, base: usize) -> (Vec<SupplierWatch>, Vec<ReplaySupplier>, u64) {
+    let ShardContext { ledger, opts, fam, alpha, log_thr_start, lines_in_order, undated_of, start } = *ctx;
+    let mut mon = Monitor::new(fam, log_thr_start, log_thr_start);
     let mut suppliers = Vec::new();
-    let notes = Vec::new();
     let mut replay_rows = Vec::new();
     let mut undated_total = 0u64;
     let (mut scratch, mut cnt) = (Vec::new(), Vec::new());
-    let lines_in_order = ledger.invoices.windows(2).all(|w| w[0].line <= w[1].line);
     let mut bins: Vec<u8> = Vec::new();
     let traj_max = opts.trajectory_points.max(2);
 
-    for sid in 0..ledger.suppliers.len() {
-        let order_buf = &mut recs[start[sid]..start[sid + 1]];
+    for sid in sids {
+        let order_buf = &mut recs[start[sid] - base..start[sid + 1] - base];
         if order_buf.is_empty() {
             continue;
         }
@@ -1164,7 +1200,7 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
         let date_at = |pos: usize| days_opt(order_buf[pos].date);
         let estimate = alarm.map(|(apos, which)| {
             let bins_usize: Vec<usize> = bins[..=apos].iter().map(|&b| b as usize).collect();
-            let from = if which == "since_start" { 0 } else { cusum_onset(&fam, lead_k, &bins_usize) };
+            let from = if which == "since_start" { 0 } else { cusum_onset(fam, lead_k, &bins_usize) };
             let window = &order_buf[from..];
             let mut counts = [0u64; BINS];
             let mut paid = Amount::ZERO;
@@ -1247,7 +1283,7 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
             estimate,
         });
     }
-    assemble(suppliers, replay_rows, notes, undated_total, opts, fam.len())
+    (suppliers, replay_rows, undated_total)
 }
 
 /// Notes, ranking, amount at risk and replay: the part of the report shared by [`watch`] and
