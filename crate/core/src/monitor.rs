@@ -979,6 +979,27 @@ fn reading_order(ledger: &Ledger, g: &mut [Rec], by_date: bool, lines_in_order: 
     }
 }
 
+/// True when the ledger's line numbers rise with its index (always so for a file read by the
+/// intake): file order is then line order.
+fn lines_in_order(ledger: &Ledger) -> bool {
+    ledger.invoices.windows(2).all(|w| w[0].line <= w[1].line)
+}
+
+/// Every supplier's invoices (indices into the ledger) in the order [`watch`] reads them: by
+/// date with ties by line when all of the supplier's invoices are dated, else by line.
+pub fn reading_orders(ledger: &Ledger) -> Vec<Vec<u32>> {
+    let (mut recs, start, undated) = group(ledger);
+    let in_order = lines_in_order(ledger);
+    let (mut scratch, mut cnt) = (Vec::new(), Vec::new());
+    (0..ledger.suppliers.len())
+        .map(|s| {
+            let g = &mut recs[start[s]..start[s + 1]];
+            reading_order(ledger, g, undated[s] == 0, in_order, &mut scratch, &mut cnt);
+            g.iter().map(|r| r.idx).collect()
+        })
+        .collect()
+}
+
 /// First-two digit bin of a scaled amount, exactly as [`first_two_bin`] (the same integer
 /// quotient `|v| / 10^(digits - 2)`, or `|v| · 10` for a one-digit integer) but with constant
 /// divisors, which the compiler turns into multiplications. Zero gives bin 0, as in the replay.
@@ -1027,6 +1048,24 @@ fn cusum_onset(fam: &Family, k: usize, bins: &[usize]) -> usize {
     start
 }
 
+/// The value at rank round((m - 1) f) of `sorted` (m values, ascending; `f` in [0, 1]).
+pub(crate) fn sorted_quantile(sorted: &[i64], f: f64) -> i64 {
+    sorted[((sorted.len() - 1) as f64 * f).round() as usize]
+}
+
+/// Expected fabricated amount at share `lam`: every invoice's amount weighted by the posterior
+/// probability that its first-two bin came from the even spread `u` rather than Benford `p`.
+/// `sums[b]` is the amount paid in bin `b` (the weight depends on the bin only).
+fn expected_fabricated(sums: &[f64; BINS], p: &[f64], u: &[f64; BINS], lam: f64) -> f64 {
+    (0..BINS)
+        .map(|b| {
+            let num = lam * u[b];
+            let den = (1.0 - lam) * p[b] + num;
+            if den > 0.0 { sums[b] * num / den } else { 0.0 }
+        })
+        .sum()
+}
+
 /// The supplier's own range for the even spread: among ranges between low and high quantiles
 /// of the window's amounts (low 0, 1, 2, 5, 10 %; high 90, 95, 98, 99, 100 %), the one whose
 /// fitted mixture has the highest likelihood (a profile likelihood over the range; a few
@@ -1034,7 +1073,7 @@ fn cusum_onset(fam: &Family, k: usize, bins: &[usize]) -> usize {
 /// first-two distribution and the share estimate at that range.
 fn own_range_fit(counts: &[u64; BINS], sorted: &[i64], conf: f64) -> (i64, i64, [f64; BINS], ShareEstimate) {
     let p = benford::first_two();
-    let q = |f: f64| sorted[((sorted.len() - 1) as f64 * f).round() as usize];
+    let q = |f: f64| sorted_quantile(sorted, f);
     let mut best: Option<(f64, i64, i64, [f64; BINS])> = None;
     for lf in [0.0, 0.01, 0.02, 0.05, 0.10] {
         for hf in [0.90, 0.95, 0.98, 0.99, 1.0] {
@@ -1058,7 +1097,7 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
     let alpha = (1.0 - opts.confidence).clamp(1e-12, 0.5);
     let log_thr_start = (1.0 / alpha).ln();
     let (mut recs, start, undated_of) = group(ledger);
-    let lines_in_order = ledger.invoices.windows(2).all(|w| w[0].line <= w[1].line);
+    let lines_in_order = lines_in_order(ledger);
     let ctx = ShardContext { ledger, opts, fam: &fam, alpha, log_thr_start, lines_in_order, undated_of: &undated_of, start: &start };
     // Suppliers are independent: two shards (split at a supplier boundary near half of the
     // invoices) run on two threads where the platform has them; the results are joined in
@@ -1203,29 +1242,21 @@ fn replay_shard(ctx: &ShardContext, recs: &mut [Rec], sids: std::ops::Range<usiz
             let from = if which == "since_start" { 0 } else { cusum_onset(fam, lead_k, &bins_usize) };
             let window = &order_buf[from..];
             let mut counts = [0u64; BINS];
+            let mut sums = [0.0f64; BINS];
             let mut paid = Amount::ZERO;
             let mut sorted: Vec<i64> = Vec::with_capacity(window.len());
             for r in window {
                 let a = Amount(r.amount);
-                counts[first_two_bin(a).unwrap_or(0)] += 1;
+                let b = first_two_bin(a).unwrap_or(0);
+                counts[b] += 1;
+                sums[b] += a.to_f64();
                 paid = paid.saturating_add(a);
                 sorted.push(a.0);
             }
             sorted.sort_unstable();
             let (lo, hi, u, share) = own_range_fit(&counts, &sorted, opts.confidence);
             let p = benford::first_two();
-            let expected = |lam: f64| -> f64 {
-                window
-                    .iter()
-                    .map(|r| {
-                        let a = Amount(r.amount);
-                        let b = first_two_bin(a).unwrap_or(0);
-                        let num = lam * u[b];
-                        let den = (1.0 - lam) * p[b] + num;
-                        if den > 0.0 { a.to_f64() * num / den } else { 0.0 }
-                    })
-                    .sum()
-            };
+            let expected = |lam: f64| expected_fabricated(&sums, &p, &u, lam);
             FabricatedEstimate {
                 window_from_invoice: from as u64 + 1,
                 window_from_date: date_at(from),
@@ -1240,21 +1271,19 @@ fn replay_shard(ctx: &ShardContext, recs: &mut [Rec], sids: std::ops::Range<usiz
             }
         });
         let name = ledger.suppliers[sid].name.clone();
-        if let (Some(a), Some((pos_cut, paid_so_far, ls, lc))) = (opts.as_of, asof_state) {
-            if let Some((apos, which)) = alarm {
-                if (apos as u64) < pos_cut {
-                    let _ = a;
-                    replay_rows.push(ReplaySupplier {
-                        id: sid as u32,
-                        name: name.clone(),
-                        alarm_date: date_at(apos),
-                        alarm_evidence: Some(which),
-                        invoices_so_far: pos_cut,
-                        paid_so_far,
-                        paid_since_alarm: Amount(paid_so_far.0 - paid_before.0),
-                        evidence: Evidence { since_start_log: ls, since_change_log: lc, ..evidence_now.clone() },
-                    });
-                }
+        // `asof_state` is only set when a replay date was asked for.
+        if let (Some((pos_cut, paid_so_far, ls, lc)), Some((apos, which))) = (asof_state, alarm) {
+            if (apos as u64) < pos_cut {
+                replay_rows.push(ReplaySupplier {
+                    id: sid as u32,
+                    name: name.clone(),
+                    alarm_date: date_at(apos),
+                    alarm_evidence: Some(which),
+                    invoices_so_far: pos_cut,
+                    paid_so_far,
+                    paid_since_alarm: Amount(paid_so_far.0 - paid_before.0),
+                    evidence: Evidence { since_start_log: ls, since_change_log: lc, ..evidence_now.clone() },
+                });
             }
         }
         suppliers.push(SupplierWatch {
@@ -1472,15 +1501,7 @@ pub fn watch_periods(t: &CountTable, opts: &WatchOptions) -> WatchReport {
             let share = fabricated_share(&counts, &u, opts.confidence);
             let mean = if wn > 0 { paid.to_f64() / wn as f64 } else { 1.0 };
             let scale = if mean > 0.0 { 10f64.powi(mean.log10().floor() as i32) } else { 1.0 };
-            let expected = |lam: f64| -> f64 {
-                (0..BINS)
-                    .map(|b| {
-                        let num = lam * u[b];
-                        let den = (1.0 - lam) * p[b] + num;
-                        if den > 0.0 { sums[b] * num / den } else { 0.0 }
-                    })
-                    .sum()
-            };
+            let expected = |lam: f64| expected_fabricated(&sums, &p, &u, lam);
             let amt = |x: f64| Amount::from_scaled((x * 10_000.0).round() as i64, 4).unwrap_or(Amount::ZERO);
             FabricatedEstimate {
                 window_from_invoice: if from == 0 { 1 } else { cum_at[from - 1].0 + 1 },

@@ -58,7 +58,7 @@ use crate::benford;
 use crate::calibrate::{adjust, CalibrationOptions, Calibrator, Correction, Moments, Statistic};
 use crate::intake::format_date;
 use crate::ledger::{Ledger, FLAG_INJECTED, NO_DATE};
-use crate::monitor::{first_two_bin, Family, Monitor, BINS};
+use crate::monitor::{self, first_two_bin, Family, Monitor, BINS};
 use crate::report::ScreenReport;
 use crate::rng::DetRng;
 use serde::{Deserialize, Serialize};
@@ -271,22 +271,6 @@ pub struct Trial {
     eligible_invoices: u64,
 }
 
-fn quantile(sorted: &[i64], f: f64) -> i64 {
-    sorted[((sorted.len() - 1) as f64 * f).round() as usize]
-}
-
-/// Reading order of every supplier as `monitor::watch` uses: by date with ties by file order
-/// when all of the supplier's invoices are dated, else file order.
-fn reading_order(ledger: &Ledger) -> Vec<Vec<u32>> {
-    let mut g = ledger.by_supplier();
-    for v in g.iter_mut() {
-        if v.iter().all(|&i| ledger.invoices[i as usize].date != NO_DATE) {
-            v.sort_by_key(|&i| ledger.invoices[i as usize].date); // stable: ties keep file order
-        }
-    }
-    g
-}
-
 impl Trial {
     /// Prepare a trial. `pool`: supplier ids that may receive invented invoices.
     pub fn new(ledger: &Ledger, opts: TrialOptions, pool: &[u32]) -> Result<Trial, String> {
@@ -324,7 +308,7 @@ impl Trial {
         let log_start: Vec<f64> = alphas.iter().map(|a| (1.0 / a).ln()).collect();
         let mut cal = Calibrator::new(opts.calibration.clone());
         let p_benford = benford::first_two();
-        let groups = reading_order(ledger);
+        let groups = monitor::reading_orders(ledger);
         let mut preps = Vec::new();
         let mut last_date = NO_DATE;
         for inv in &ledger.invoices {
@@ -395,8 +379,8 @@ impl Trial {
                 eligible,
                 dates,
                 amounts,
-                q10: quantile(&sorted, 0.10),
-                q90: quantile(&sorted, 0.90),
+                q10: monitor::sorted_quantile(&sorted, 0.10),
+                q90: monitor::sorted_quantile(&sorted, 0.90),
                 log_change,
                 snapshot,
                 prefix_alarm,
