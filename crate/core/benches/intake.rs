@@ -5,20 +5,15 @@
 
 use criterion::{criterion_group, criterion_main, Criterion, Throughput};
 use digitdrift_core::intake::{Intake, IntakeOptions};
+use digitdrift_core::rng::DetRng;
 use std::hint::black_box;
 use std::io::Write;
 
 fn generate(rows: usize) -> Vec<u8> {
     let mut out = Vec::with_capacity(rows * 46);
     out.extend_from_slice(b"Lieferant;Belegnummer;Belegdatum;Bruttobetrag\n");
-    let mut x: u64 = 0x9E37_79B9_7F4A_7C15;
-    let mut next = || {
-        // xorshift64* (Vigna)
-        x ^= x >> 12;
-        x ^= x << 25;
-        x ^= x >> 27;
-        x.wrapping_mul(0x2545_F491_4F6C_DD1D)
-    };
+    let mut rng = DetRng::seed_from_u64(0x9E37_79B9_7F4A_7C15);
+    let mut next = || rng.next_u64();
     let names: Vec<String> = (0..400).map(|i| format!("Lieferant {:03} GmbH", i)).collect();
     for i in 0..rows {
         let r = next();

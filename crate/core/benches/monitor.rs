@@ -10,6 +10,7 @@ use digitdrift_core::intake::days_from_civil;
 use digitdrift_core::ledger::{supplier_key, Invoice, Ledger, Supplier};
 use digitdrift_core::monitor::{first_two_bin, watch, Family, Monitor, WatchOptions};
 use digitdrift_core::Amount;
+use digitdrift_core::rng::DetRng;
 use std::hint::black_box;
 
 fn ledger(rows: usize) -> Ledger {
@@ -18,14 +19,8 @@ fn ledger(rows: usize) -> Ledger {
         let n = format!("Supplier {i:03} Ltd");
         l.suppliers.push(Supplier { key: supplier_key(&n), name: n });
     }
-    let mut x: u64 = 0x9E37_79B9_7F4A_7C15;
-    let mut next = || {
-        // xorshift64* (Vigna)
-        x ^= x >> 12;
-        x ^= x << 25;
-        x ^= x >> 27;
-        x.wrapping_mul(0x2545_F491_4F6C_DD1D)
-    };
+    let mut rng = DetRng::seed_from_u64(0x9E37_79B9_7F4A_7C15);
+    let mut next = || rng.next_u64();
     let day0 = days_from_civil(2024, 1, 1);
     for i in 0..rows {
         let r = next();
