@@ -139,10 +139,12 @@ mod tests {
 
     #[test]
     fn sha256_known_vector() {
-        // FIPS 180-2 example: SHA-256("abc").
+        // FIPS 180-2, appendix B.3: SHA-256 of one million "a", fed in uneven pieces.
         let mut f = Fingerprint::new();
-        f.update(b"a");
-        f.update(b"bc");
-        assert_eq!(f.hex(), "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad");
+        let data = vec![b'a'; 1_000_000];
+        for piece in data.chunks(65_537) {
+            f.update(piece);
+        }
+        assert_eq!(f.hex(), "cdc76e5c9914fb9281a1c7e284d73e67f1809a48a497200e046d39ccc7112cd0");
     }
 }

@@ -338,7 +338,7 @@ mod tests {
         assert_eq!(p("1,5", Some(Point)), None);
         assert_eq!(p("1.234,56", Some(Point)), None);
         assert_eq!(p("12,34,567.00", None), None);
-        assert_eq!(p("abc", None), None);
+        assert_eq!(p("twelve", None), None);
         assert_eq!(p("1.2E+05", None), None);
         assert_eq!(p("", None), None);
         assert_eq!(p("-", None), None);
