@@ -1251,8 +1251,8 @@ pub fn trial_csv(t: &TrialReport, file_name: &str, sha256: &str) -> String {
     row(
         &mut out,
         &[cell(&format!(
-            "# pattern {:?}; share {}; from {}; replications {} (planned {}); seed {}; controls {}; calibration seed {} simulations {} correction {:?}; screen confidence {}",
-            p.pattern,
+            "# pattern {}; share {}; from {}; replications {} (planned {}); seed {}; controls {}; calibration seed {} simulations {} correction {:?}; screen confidence {}",
+            serde_json::to_string(&p.pattern).unwrap_or_default().trim_matches('"'),
             p.share,
             p.from.as_deref().unwrap_or("start"),
             p.replications,
