@@ -50,7 +50,11 @@
 //!   `Binomial(m, 1/2)` ([`MedianInterval`], [`median_ranks`]; Conover, *Practical
 //!   Nonparametric Statistics*, 3rd ed., §3.2). The `m` observations are the pooled
 //!   supplier-replications; they are treated as independent draws (replications are
-//!   independent; within one, suppliers get independent streams).
+//!   independent; within one, suppliers get independent streams). Suppliers differ, so the
+//!   median estimated is that of the mix of the pool's suppliers the trial injects. Every
+//!   replication injects the same number of them, drawn without replacement; compared with
+//!   independent draws of supplier this should make the interval conservative rather than
+//!   too narrow (our reasoning, not checked by a test).
 //! - **Monte Carlo standard errors** of the rates: the ratio estimator's standard error over
 //!   replications, `sqrt(Σ_r (x_r − p̂ y_r)² / (R (R − 1))) / ȳ` (Cochran, *Sampling
 //!   Techniques*, 3rd ed. 1977, §6.4 — from memory); with one replication the binomial
