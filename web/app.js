@@ -651,6 +651,7 @@
         suppliers: who.value, controls: Math.min(90, Math.max(0, Number(controls.value) || 0)) / 100, limit: limit.value.trim(), screen: screenSettings() };
       trialRunning = true; run.disabled = true; cancel.hidden = false; progress.hidden = false;
       body.dataset.state = 'running';
+      out.replaceChildren();
       onTrialProgress({ done: 0, total: settings.replications });
       try {
         const res = await call('trial', { settings });
@@ -670,25 +671,39 @@
     const pc = (x) => (x === null || x === undefined) ? '—' : (100 * x).toFixed(1) + ' %';
     const pcse = (x, se) => (x === null || x === undefined) ? '—' : (100 * x).toFixed(1) + ' ± ' + (100 * (se || 0)).toFixed(1) + ' %';
     const n0 = (x) => (x === null || x === undefined) ? '—' : fmtInt(Math.round(x));
+    // A median and, in brackets, its 95 % range from order statistics: "68 (61–75)".
+    // Money ranges in whole units, to keep the table narrow.
+    const medCell = (x, iv, f, fr) => x === null || x === undefined ? el('td', { class: 'num', text: '—' })
+      : el('td', { class: 'num' }, f(x), el('span', { class: 'ci', text: iv ? ` (${(fr || f)(iv.low)}–${(fr || f)(iv.high)})` : ' (too few)' }));
     const main = r.levels.find((l) => Math.abs(l.confidence - p.screen_confidence) < 1e-9) || r.levels[0];
     const conf = (c) => (100 * c).toFixed(c >= 0.995 ? 1 : 0) + ' %';
     const canvas = el('canvas', { class: 'chart wide', id: 'chart-trial', role: 'img', 'aria-label': 'Share of suppliers with invented invoices caught, against the share of untouched suppliers flagged, at each confidence level; the table below gives the same numbers' });
     const line = (get) => r.levels.map((l) => [get(l).fa, get(l).s]).filter((q) => q[0] !== null && q[1] !== null);
     const table = el('table', { class: 'grid compact', id: 'trial-table' },
-      el('caption', { text: 'Per confidence level. Caught: suppliers with invented invoices flagged by the screen or the replay. False alarms: untouched suppliers flagged. ± one Monte Carlo standard error over the replications. Invoices and days to alarm, and the invented amount paid by then: medians over suppliers caught after their first invented invoice. Alarm before any invented: the supplier\u2019s real invoices had already raised the replay\u2019s alarm.' }),
+      el('caption', { text: 'Per confidence level. Caught: suppliers with invented invoices flagged by the screen or the replay. False alarms: untouched suppliers flagged. ± one Monte Carlo standard error over the replications. Invoices and days to alarm, and the invented amount paid by then: medians over suppliers caught after their first invented invoice; in brackets a 95 % range for each median (order statistics, Conover, Practical Nonparametric Statistics, §3.2), “too few” below 6 caught suppliers. Alarm before any invented: the supplier\u2019s real invoices had already raised the replay\u2019s alarm.' }),
       el('thead', null, el('tr', null, ['Confidence', 'Caught', 'False alarms', 'Caught, screen', 'False alarms, screen', 'Caught, replay', 'False alarms, replay', 'Invoices to alarm', 'Days to alarm', 'Invented paid by then', 'Alarm before any invented'].map((h) => el('th', { text: h })))),
       el('tbody', null, r.levels.map((l) => el('tr', { class: l === main ? 'sel' : null },
         el('td', { class: 'num', text: conf(l.confidence) }), el('td', { class: 'num', text: pcse(l.sensitivity, l.sensitivity_se) }), el('td', { class: 'num', text: pcse(l.false_alarm_rate, l.false_alarm_rate_se) }),
         el('td', { class: 'num', text: pc(l.batch.sensitivity) }), el('td', { class: 'num', text: pc(l.batch.false_alarm_rate) }),
         el('td', { class: 'num', text: pc(l.monitoring.sensitivity) }), el('td', { class: 'num', text: pc(l.monitoring.false_alarm_rate) }),
-        el('td', { class: 'num', text: n0(l.median_delay_invoices) }), el('td', { class: 'num', text: n0(l.median_delay_days) }),
-        el('td', { class: 'num', text: l.paid_before_detection === null ? '—' : fmtMoney(l.paid_before_detection) }), el('td', { class: 'num', text: pc(l.alarmed_before_injection) })))));
+        medCell(l.median_delay_invoices, l.median_delay_invoices_interval, n0), medCell(l.median_delay_days, l.median_delay_days_interval, n0),
+        medCell(l.paid_before_detection, l.paid_before_detection_interval, fmtMoney, n0), el('td', { class: 'num', text: pc(l.alarmed_before_injection) })))));
     const summary = main.sensitivity === null
       ? `No supplier received invented invoices (share ${(100 * p.share).toFixed(0)} %), so there is nothing to catch; ${pc(main.false_alarm_rate)} of the untouched suppliers were flagged at ${conf(main.confidence)}.`
       : `At ${conf(main.confidence)} (the screen\u2019s setting), ${pc(main.sensitivity)} of the suppliers with invented invoices were caught, and ${pc(main.false_alarm_rate)} of the untouched ones were flagged.` +
-        (main.median_delay_invoices !== null ? ` When the replay caught one after its invented invoices began, it took a median ${n0(main.median_delay_invoices)} invoices (${n0(main.median_delay_days)} days), with ${fmtMoney(main.paid_before_detection)} of invented amounts paid by then.` : '');
+        (main.median_delay_invoices !== null ? ` When the replay caught one after its invented invoices began, it took a median ${n0(main.median_delay_invoices)} invoices` +
+        (main.median_delay_invoices_interval ? ` (95 % range ${n0(main.median_delay_invoices_interval.low)}–${n0(main.median_delay_invoices_interval.high)})` : '') + ` and ${n0(main.median_delay_days)} days, with ${fmtMoney(main.paid_before_detection)} of invented amounts paid by then.` : '');
+    // Trial exports: their own files, marked as a trial on invented invoices (never the screen's).
+    const exportTrial = async (format) => {
+      const text = await call('exportTrial', { format, fileName: state.fileName });
+      download(baseName() + '-TRIAL-invented-invoices.' + format, text, format === 'json' ? 'application/json;charset=utf-8' : undefined);
+    };
     out.replaceChildren(...[
       el('h2', { text: 'Trial results (kept apart from the screen)' }),
+      el('p', { class: 'row noprint', id: 'trial-exports' },
+        el('button', { class: 'btn alt', type: 'button', id: 'trial-export-csv', onclick: () => exportTrial('csv') }, 'Trial results (CSV)'), ' ',
+        el('button', { class: 'btn alt', type: 'button', id: 'trial-export-json', onclick: () => exportTrial('json') }, 'Trial results (JSON)'),
+        el('span', { class: 'small', text: ' Files of their own, marked as a trial on invented invoices; the screen\u2019s exports never include them.' })),
       el('p', { class: 'summary', id: 'trial-summary' }, el('strong', { text: summary })),
       el('p', { class: 'small', id: 'trial-facts', text: `${fmtInt(p.replications)} replication${p.replications === 1 ? '' : 's'} in ${(res.ms / 1000).toFixed(1)} s · seed ${p.seed} · ${TRIAL_PATTERNS.find((x) => x[0] === settings.pattern)[1].toLowerCase()} · ${(100 * p.share).toFixed(0)} % of invoices` + (p.from ? ` from ${p.from}` : '') +
         ` · ${fmtInt(r.pool.length)} suppliers chosen, about ${r.mean_injected_suppliers.toFixed(1)} with invented invoices and ${r.mean_control_suppliers.toFixed(1)} left untouched per replication · about ${fmtInt(Math.round(r.mean_invented_invoices))} invented invoices per replication.` }),

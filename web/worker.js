@@ -89,6 +89,7 @@ const handlers = {
   async rescreen({ id, settings }) { post({ id, ok: true, value: session.screen(settings || {}) }); },
   async exportSuppliers({ id, fileName }) { post({ id, ok: true, value: session.suppliersCsv(fileName) }); },
   async exportPull({ id, items, fileName }) { post({ id, ok: true, value: session.pullCsv(items, fileName) }); },
+  async exportTrial({ id, format, fileName }) { post({ id, ok: true, value: session.trialExport(format, fileName) }); },
   async watch({ id, settings }) { post({ id, ok: true, value: session.watch(settings || {}) }); },
   async trial({ id, settings }) { return runTrial(id, settings); },
   async detail({ id, supplier }) { post({ id, ok: true, value: session.supplierDetail(supplier) }); },

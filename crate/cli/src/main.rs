@@ -25,7 +25,7 @@ usage:
                         [--replications 100] [--seed N] [--suppliers consistent|all|NAME;NAME]
                         [--controls 0.5] [--range LOW;HIGH] [--limit X] [--repeated 3]
                         [--levels 0.8,0.9,0.95,0.99,0.999] [intake and screen flags]
-                        [--calibration-seed 1] [--format json|text]
+                        [--calibration-seed 1] [--format json|text] [--out RESULTS.csv|RESULTS.json]
 
 COL is a header name or a 1-based column number. A digit deviation is a reason to look,
 not proof of wrongdoing.";

@@ -1,7 +1,13 @@
 //! `digitdrift trial FILE --pattern even|below-limit|repeat|by-hand --share S --from DATE
 //! --replications R --seed N [--suppliers consistent|all|NAME;NAME] [--controls 0.5]
 //! [--range LOW;HIGH] [--limit X] [--repeated 3] [--levels 0.8,0.9,0.95,0.99,0.999]
-//! [intake and screen flags] [--format json|text]`: the detection trial.
+//! [intake and screen flags] [--format json|text] [--out RESULTS.csv|RESULTS.json]`: the
+//! detection trial.
+//!
+//! `--out` also writes the trial's results to a file of their own (CSV or JSON by the file's
+//! extension), marked on its first line as a trial on invented invoices with its pattern, share,
+//! replications and seed, the ledger's name and SHA-256, and the caution. It is never one of the
+//! screen's exports and may not overwrite the ledger.
 //!
 //! The ledger is screened first (its verdicts choose the default pool: suppliers `consistent`);
 //! the trial then works on copies with invented invoices. Its results are printed apart from
@@ -99,9 +105,28 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
     }
     let pool_arg = a.get("suppliers").map(String::from);
     let cal_seed = a.parse_num::<u64>("calibration-seed")?.unwrap_or(1);
+    let out_file = a.get("out").map(String::from);
     a.finish()?;
     let [file] = a.positionals.as_slice() else {
         return Err("trial takes exactly one FILE".into());
+    };
+    let out_csv = match out_file.as_deref() {
+        None => None,
+        Some(o) => {
+            let lower = o.to_ascii_lowercase();
+            let csv = if lower.ends_with(".csv") {
+                true
+            } else if lower.ends_with(".json") {
+                false
+            } else {
+                return Err(format!("--out takes a file name ending in .csv or .json, not '{o}'"));
+            };
+            let same = std::fs::canonicalize(o).ok().zip(std::fs::canonicalize(file).ok()).is_some_and(|(x, y)| x == y);
+            if same || o == file {
+                return Err("--out must not be the ledger itself".into());
+            }
+            Some(csv)
+        }
     };
     let Some(cal) = sopts.calibration.as_mut() else {
         return Err("the trial needs the calibrated screen (drop --no-calibration)".into());
@@ -139,5 +164,31 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
     } else {
         print!("{}", trial::render_text(&rep));
     }
+    if let (Some(o), Some(csv)) = (out_file.as_deref(), out_csv) {
+        let sha = fingerprint(file)?;
+        let name = std::path::Path::new(file).file_name().map_or(file.clone(), |n| n.to_string_lossy().into_owned());
+        let text = if csv { trial::trial_csv(&rep, &name, &sha) } else { trial::trial_json(&rep, &name, &sha) };
+        std::fs::write(o, text).map_err(|e| format!("--out {o}: {e}"))?;
+        eprintln!("trial results (invented invoices, not the screen's results) written to {o}");
+    }
     Ok(0)
+}
+
+/// SHA-256 of the ledger file as read (the screen's fingerprint); standard input is not re-read.
+fn fingerprint(path: &str) -> Result<String, String> {
+    use std::io::Read;
+    if path == "-" {
+        return Ok("standard input (not fingerprinted)".into());
+    }
+    let mut f = std::fs::File::open(path).map_err(|e| format!("{path}: {e}"))?;
+    let mut fp = digitdrift_core::export::Fingerprint::new();
+    let mut buf = vec![0u8; 1 << 20];
+    loop {
+        let k = f.read(&mut buf).map_err(|e| format!("{path}: {e}"))?;
+        if k == 0 {
+            break;
+        }
+        fp.update(&buf[..k]);
+    }
+    Ok(fp.hex())
 }

@@ -46,6 +46,13 @@ fn json_per_level_and_text_with_caution() {
             assert!(l.get(k).is_some(), "missing {k}");
         }
         assert!(l["batch"]["sensitivity"].is_number() && l["monitoring"]["median_delay_invoices"].is_number());
+        // Each median carries its 95 % order-statistic interval (null below 6 observations).
+        for k in ["median_delay_invoices_interval", "median_delay_days_interval", "paid_before_detection_interval"] {
+            let iv = l.get(k).unwrap_or_else(|| panic!("missing {k}"));
+            if !iv.is_null() {
+                assert!(iv["low"].as_f64().unwrap() <= iv["high"].as_f64().unwrap() && iv["coverage"].as_f64().unwrap() >= 0.95, "{k}: {iv}");
+            }
+        }
     }
     assert_eq!(v["parameters"]["replications"], 3);
     assert_eq!(v["parameters"]["from"], "2024-01-01");
@@ -73,9 +80,24 @@ fn bad_input_is_exit_2() {
         vec!["trial", f, "--replications", "0"],
         vec!["trial", f, "--suppliers", "Nobody Ltd"],
         vec!["trial", f, "--bogus", "1"],
+        vec!["trial", f, "--replications", "1", "--out", "results.txt"],
+        vec!["trial", f, "--replications", "1", "--out", f],
     ] {
         let (code, _, err) = run(&bad);
         assert_eq!(code, 2, "{bad:?}: {err}");
         assert!(!err.is_empty());
     }
+}
+
+#[test]
+fn out_writes_a_marked_results_file_of_its_own() {
+    let f = ledger();
+    let out = f.with_file_name("trial-results.csv");
+    let (code, _, err) = run(&["trial", f.to_str().unwrap(), "--replications", "2", "--seed", "4", "--suppliers", "all", "--sims", "500", "--out", out.to_str().unwrap()]);
+    assert_eq!(code, 0, "{err}");
+    let text = std::fs::read_to_string(&out).unwrap();
+    let first = text.split("\r\n").next().unwrap();
+    assert!(first.starts_with("# digitdrift DETECTION TRIAL on invented invoices") && first.contains("seed 4") && first.contains("2 replications"), "{first}");
+    assert!(first.contains("file: honest.csv") && first.contains("sha256: "), "{first}");
+    assert!(text.contains("not proof of wrongdoing"));
 }

@@ -40,11 +40,11 @@ pub fn cell(s: &str) -> String {
 }
 
 /// A number cell: written as is (numbers are not text, so a negative number stays a number).
-fn num(x: f64, decimals: usize) -> String {
+pub(crate) fn num(x: f64, decimals: usize) -> String {
     if x.is_finite() { format!("{x:.decimals$}") } else { String::new() }
 }
 
-fn row(out: &mut String, cells: &[String]) {
+pub(crate) fn row(out: &mut String, cells: &[String]) {
     out.push_str(&cells.join(","));
     out.push_str("\r\n");
 }

@@ -43,7 +43,18 @@
 //!   raised before the first invented invoice counts as detection but has no delay to measure:
 //!   its share is reported (`alarmed_before_injection`) and the medians are over the suppliers
 //!   detected at or after their first invented invoice (undetected ones have no delay).
-//! - **paid before detection**: invented amount paid up to and including the alarm invoice.
+//! - **paid before detection**: invented amount paid up to and including the alarm invoice
+//!   (median over the same suppliers).
+//! - **Monte Carlo error of the medians**: for each of the three medians, the 95 %
+//!   distribution-free interval `[X_(r), X_(s)]` of order statistics, `r`, `s` from
+//!   `Binomial(m, 1/2)` ([`MedianInterval`], [`median_ranks`]; Conover, *Practical
+//!   Nonparametric Statistics*, 3rd ed., §3.2). The `m` observations are the pooled
+//!   supplier-replications; they are treated as independent draws (replications are
+//!   independent; within one, suppliers get independent streams). Suppliers differ, so the
+//!   median estimated is that of the mix of the pool's suppliers the trial injects. Every
+//!   replication injects the same number of them, drawn without replacement; compared with
+//!   independent draws of supplier this should make the interval conservative rather than
+//!   too narrow (our reasoning, not checked by a test).
 //! - **Monte Carlo standard errors** of the rates: the ratio estimator's standard error over
 //!   replications, `sqrt(Σ_r (x_r − p̂ y_r)² / (R (R − 1))) / ȳ` (Cochran, *Sampling
 //!   Techniques*, 3rd ed. 1977, §6.4 — from memory); with one replication the binomial
@@ -646,6 +657,15 @@ impl Trial {
                 let before = all_any.iter().filter(|d| d.before).count() as u64;
                 let any: Vec<Delay> = all_any.iter().copied().filter(|d| !d.before).collect();
                 let mon: Vec<Delay> = reps.iter().flat_map(|r| r.levels[l].delay_monitor.iter().copied()).filter(|d| !d.before).collect();
+                let inv_days_paid = |v: &[Delay]| -> (Vec<f64>, Vec<f64>, Vec<f64>) {
+                    (
+                        v.iter().map(|d| d.invoices as f64).collect(),
+                        v.iter().filter_map(|d| d.days.map(|x| x as f64)).collect(),
+                        v.iter().map(|d| d.paid).collect(),
+                    )
+                };
+                let (any_inv, any_days, any_paid) = inv_days_paid(&any);
+                let (mon_inv, mon_days, mon_paid) = inv_days_paid(&mon);
                 let sens = inj(|t| t.any);
                 let fa = ctl(|t| t.any);
                 LevelSummary {
@@ -654,9 +674,12 @@ impl Trial {
                     sensitivity_se: sens.se,
                     false_alarm_rate: fa.rate,
                     false_alarm_rate_se: fa.se,
-                    median_delay_invoices: median(any.iter().map(|d| d.invoices as f64).collect()),
-                    median_delay_days: median(any.iter().filter_map(|d| d.days.map(|x| x as f64)).collect()),
-                    paid_before_detection: median(any.iter().map(|d| d.paid).collect()),
+                    median_delay_invoices: median(any_inv.clone()),
+                    median_delay_days: median(any_days.clone()),
+                    paid_before_detection: median(any_paid.clone()),
+                    median_delay_invoices_interval: median_interval(any_inv),
+                    median_delay_days_interval: median_interval(any_days),
+                    paid_before_detection_interval: median_interval(any_paid),
                     detected: all_any.len() as u64,
                     detected_after_injection: any.len() as u64,
                     alarmed_before_injection: (injected_n > 0).then(|| before as f64 / injected_n as f64),
@@ -668,15 +691,21 @@ impl Trial {
                         median_delay_invoices: None,
                         median_delay_days: None,
                         paid_before_detection: None,
+                        median_delay_invoices_interval: None,
+                        median_delay_days_interval: None,
+                        paid_before_detection_interval: None,
                     },
                     monitoring: Part {
                         sensitivity: inj(|t| t.monitor).rate,
                         sensitivity_se: inj(|t| t.monitor).se,
                         false_alarm_rate: ctl(|t| t.monitor).rate,
                         false_alarm_rate_se: ctl(|t| t.monitor).se,
-                        median_delay_invoices: median(mon.iter().map(|d| d.invoices as f64).collect()),
-                        median_delay_days: median(mon.iter().filter_map(|d| d.days.map(|x| x as f64)).collect()),
-                        paid_before_detection: median(mon.iter().map(|d| d.paid).collect()),
+                        median_delay_invoices: median(mon_inv.clone()),
+                        median_delay_days: median(mon_days.clone()),
+                        paid_before_detection: median(mon_paid.clone()),
+                        median_delay_invoices_interval: median_interval(mon_inv),
+                        median_delay_days_interval: median_interval(mon_days),
+                        paid_before_detection_interval: median_interval(mon_paid),
                     },
                     outside_pool: OutsidePart {
                         alarm_rate: out(|t| t.any).rate,
@@ -845,6 +874,166 @@ fn median(mut v: Vec<f64>) -> Option<f64> {
     Some(if m % 2 == 1 { v[m / 2] } else { (v[m / 2 - 1] + v[m / 2]) / 2.0 })
 }
 
+/// Distribution-free confidence interval for a median: the order statistics
+/// `[X_(r), X_(s)]` of `m` observations (Conover, *Practical Nonparametric Statistics*, 3rd ed.
+/// 1999, §3.2, "confidence interval for a quantile", with p = 1/2). With `Y ~ Binomial(m, 1/2)`,
+/// `r − 1` is the largest `k` with `P(Y ≤ k) ≤ 0.025` and, by the symmetry of `Binomial(m, 1/2)`,
+/// `s = m + 1 − r`; the interval covers the median with probability at least
+/// `P(r ≤ Y ≤ s − 1) = 1 − 2 P(Y ≤ r − 1) ≥ 95 %`, whatever the distribution (ties included).
+/// The trial treats its pooled supplier-replications as the sample: the interval is the
+/// Monte Carlo error of the median the trial estimates, not a statement about real suppliers.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize)]
+pub struct MedianInterval {
+    pub low: f64,
+    pub high: f64,
+    /// 1-based ranks r and s of the order statistics used.
+    pub rank_low: u64,
+    pub rank_high: u64,
+    /// Number of observations m the median is taken over.
+    pub observations: u64,
+    /// `1 − 2 P(Y ≤ r − 1)`: the interval's guaranteed coverage (at least 0.95).
+    pub coverage: f64,
+}
+
+/// One-sided tail of the interval: `P(Y ≤ r − 1) ≤ 1/40` (2.5 %, so 95 % two-sided).
+const MEDIAN_TAIL_DEN: u32 = 40;
+
+/// Ranks `(r, s)` and coverage of the 95 % order-statistic interval for the median of `m`
+/// observations, or None when `m < 6` (then even `[X_(1), X_(m)]` covers less than 95 %:
+/// `1 − 2 × 2^−m < 0.95`). Exact: the cumulative binomial probabilities are summed in log
+/// space with `libm` (the same on every platform), and whenever one of them lies within a
+/// relative 1e-9 of the 2.5 % line the decision is taken again in exact integer arithmetic
+/// ([`median_rank_exact`]), so rounding can never choose the rank.
+pub fn median_ranks(m: u64) -> Option<(u64, u64, f64)> {
+    if m < 6 {
+        return None;
+    }
+    let tail = 1.0 / MEDIAN_TAIL_DEN as f64;
+    // ln P(Y = i) by the ratio recurrence P(i+1)/P(i) = (m − i)/(i + 1), from P(0) = 2^−m.
+    let mut ln_p = -(m as f64) * core::f64::consts::LN_2;
+    let mut cdf = libm::exp(ln_p);
+    let mut k = 0u64; // largest k so far with cdf(k) <= tail
+    let mut cdf_k = cdf;
+    let mut near = (cdf - tail).abs() <= 1e-9 * tail;
+    let mut i = 0u64;
+    while i < m {
+        ln_p += libm::log((m - i) as f64 / (i + 1) as f64);
+        i += 1;
+        let next = cdf + libm::exp(ln_p);
+        near |= (next - tail).abs() <= 1e-9 * tail;
+        if next > tail {
+            break;
+        }
+        cdf = next;
+        k = i;
+        cdf_k = cdf;
+    }
+    if near {
+        k = median_rank_exact(m)? - 1;
+        cdf_k = binom_half_cdf_f64(m, k);
+    }
+    let r = k + 1;
+    Some((r, m + 1 - r, 1.0 - 2.0 * cdf_k))
+}
+
+/// `P(Y ≤ k)` for `Y ~ Binomial(m, 1/2)`, summed in log space with `libm` (display only).
+fn binom_half_cdf_f64(m: u64, k: u64) -> f64 {
+    let mut ln_p = -(m as f64) * core::f64::consts::LN_2;
+    let mut cdf = libm::exp(ln_p);
+    for i in 0..k.min(m) {
+        ln_p += libm::log((m - i) as f64 / (i + 1) as f64);
+        cdf += libm::exp(ln_p);
+    }
+    cdf
+}
+
+/// The rank r of [`median_ranks`] in exact integer arithmetic: the largest `r ≥ 1` with
+/// `40 × Σ_{i<r} C(m, i) ≤ 2^m`, or None when even `r = 1` fails (`m < 6`). Costs about
+/// `m²/64` word operations: used by [`median_ranks`] only to settle a near tie, and by tests.
+pub fn median_rank_exact(m: u64) -> Option<u64> {
+    // Little-endian base-2^32 naturals.
+    fn mul_small(a: &mut Vec<u32>, x: u32) {
+        let mut carry = 0u64;
+        for w in a.iter_mut() {
+            let t = *w as u64 * x as u64 + carry;
+            *w = t as u32;
+            carry = t >> 32;
+        }
+        if carry > 0 {
+            a.push(carry as u32);
+        }
+    }
+    fn div_small(a: &mut Vec<u32>, x: u32) {
+        let mut rem = 0u64;
+        for w in a.iter_mut().rev() {
+            let t = (rem << 32) | *w as u64;
+            *w = (t / x as u64) as u32;
+            rem = t % x as u64;
+        }
+        debug_assert_eq!(rem, 0, "binomial coefficients divide exactly");
+        while a.len() > 1 && *a.last().unwrap() == 0 {
+            a.pop();
+        }
+    }
+    fn add(a: &mut Vec<u32>, b: &[u32]) {
+        if a.len() < b.len() {
+            a.resize(b.len(), 0);
+        }
+        let mut carry = 0u64;
+        for (i, w) in a.iter_mut().enumerate() {
+            let t = *w as u64 + b.get(i).copied().unwrap_or(0) as u64 + carry;
+            *w = t as u32;
+            carry = t >> 32;
+        }
+        if carry > 0 {
+            a.push(carry as u32);
+        }
+    }
+    fn le(a: &[u32], b: &[u32]) -> bool {
+        let top = |v: &[u32]| v.iter().rposition(|&w| w != 0).map_or(0, |p| p + 1);
+        let (la, lb) = (top(a), top(b));
+        if la != lb {
+            return la < lb;
+        }
+        for i in (0..la).rev() {
+            if a[i] != b[i] {
+                return a[i] < b[i];
+            }
+        }
+        true
+    }
+    let mut two_m = vec![0u32; (m / 32) as usize + 1];
+    two_m[(m / 32) as usize] = 1u32 << (m % 32);
+    let mut c = vec![1u32]; // C(m, i)
+    let mut sum = vec![1u32]; // Σ_{j ≤ i} C(m, j)
+    let mut r = 0u64;
+    let mut i = 0u64;
+    loop {
+        let mut scaled = sum.clone();
+        mul_small(&mut scaled, MEDIAN_TAIL_DEN);
+        if !le(&scaled, &two_m) {
+            break;
+        }
+        r = i + 1; // P(Y ≤ i) ≤ 1/40, so r − 1 = i is allowed
+        if i == m {
+            break;
+        }
+        mul_small(&mut c, (m - i) as u32);
+        div_small(&mut c, (i + 1) as u32);
+        add(&mut sum, &c);
+        i += 1;
+    }
+    (r >= 1).then_some(r)
+}
+
+/// The 95 % interval for the median of `v` (see [`MedianInterval`]); None below 6 values.
+fn median_interval(mut v: Vec<f64>) -> Option<MedianInterval> {
+    let m = v.len() as u64;
+    let (r, s, coverage) = median_ranks(m)?;
+    v.sort_by(|a, b| a.total_cmp(b));
+    Some(MedianInterval { low: v[(r - 1) as usize], high: v[(s - 1) as usize], rank_low: r, rank_high: s, observations: m, coverage })
+}
+
 #[derive(Clone, Debug, Serialize)]
 pub struct Part {
     pub sensitivity: Option<f64>,
@@ -857,6 +1046,13 @@ pub struct Part {
     pub median_delay_days: Option<f64>,
     #[serde(skip_serializing_if = "Option::is_none")]
     pub paid_before_detection: Option<f64>,
+    /// 95 % order-statistic intervals of the three medians (see [`MedianInterval`]).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub median_delay_invoices_interval: Option<MedianInterval>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub median_delay_days_interval: Option<MedianInterval>,
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub paid_before_detection_interval: Option<MedianInterval>,
 }
 
 #[derive(Clone, Debug, Serialize)]
@@ -885,6 +1081,11 @@ pub struct LevelSummary {
     pub median_delay_days: Option<f64>,
     /// Median over the same suppliers of the invented amount paid up to the alarm.
     pub paid_before_detection: Option<f64>,
+    /// Monte Carlo error of the three medians: 95 % distribution-free intervals from order
+    /// statistics (Conover 1999, §3.2; see [`MedianInterval`]). Null below 6 observations.
+    pub median_delay_invoices_interval: Option<MedianInterval>,
+    pub median_delay_days_interval: Option<MedianInterval>,
+    pub paid_before_detection_interval: Option<MedianInterval>,
     /// Detected supplier-replications (any time).
     pub detected: u64,
     /// Detected at or after the first invented invoice: the medians are over these.
@@ -943,14 +1144,15 @@ pub struct TrialReport {
     pub caution: &'static str,
 }
 
-pub const TRIAL_CAUTION: &str = "A detection trial runs on invented invoices placed in a copy of the ledger: it says how often the screen would catch these patterns on this ledger, not whether anything in the real ledger is fabricated. Real fabrication may look different. A deviation from Benford's law is a reason to look, not proof of wrongdoing; follow professional auditing standards, the firm's policies, local law and counsel.";
+pub const TRIAL_CAUTION: &str = "A detection trial runs on invented invoices placed in a copy of the ledger: it says how often the screen would catch these patterns on this ledger, not whether anything in the real ledger is fabricated. Real fabrication may look different. A deviation from Benford's law is a reason to look, not proof of wrongdoing: do not confront a supplier or an employee on it alone; follow professional auditing standards, the firm's policies, local law and counsel.";
 
-const METHOD: [&str; 5] = [
+const METHOD: [&str; 6] = [
     "each replication shuffles the pool of suppliers; part of it gets invented invoices, the rest are left untouched as controls",
     "an injected supplier's invoices dated on or after the start date are replaced at random by invented ones at the chosen share (same dates, same count), in a copy of the ledger",
     "batch: the first-two digits MAD of every supplier, calibrated to its invoice count, corrected across the list at each confidence level, as the screen does",
     "monitoring: the same evidence and alarm lines as the replay view, read in date order; delay counts the supplier's invoices from the first invented one to the alarm",
     "sensitivity: injected suppliers detected by either; false-alarm rate: controls with an alarm; standard errors are Monte Carlo errors over replications",
+    "medians (delay, amount paid by the alarm) come with a 95 % distribution-free interval from order statistics (Conover, Practical Nonparametric Statistics, 3rd ed., section 3.2), over the pooled supplier-replications; none below 6 of them",
 ];
 
 fn pct(x: Option<f64>) -> String {
@@ -962,8 +1164,13 @@ fn pct_se(x: Option<f64>, se: Option<f64>) -> String {
         _ => "-".into(),
     }
 }
-fn num(x: Option<f64>, d: usize) -> String {
-    x.map_or("-".into(), |v| format!("{v:.d$}"))
+/// A median with its 95 % interval: `68 (61–75)`; the interval is left out below 6 values.
+fn med(x: Option<f64>, iv: Option<MedianInterval>, d: usize) -> String {
+    match (x, iv) {
+        (Some(v), Some(i)) => format!("{v:.d$} ({:.d$}–{:.d$})", i.low, i.high),
+        (Some(v), None) => format!("{v:.d$} (too few)"),
+        _ => "-".into(),
+    }
 }
 
 /// Readable summary for the terminal.
@@ -993,13 +1200,13 @@ pub fn render_text(t: &TrialReport) -> String {
     let _ = writeln!(s);
     let _ = writeln!(
         s,
-        "{:>10}  {:>16}  {:>16}  {:>12} {:>12}  {:>12} {:>12}  {:>11} {:>10} {:>14} {:>14}",
+        "{:>10}  {:>16}  {:>16}  {:>12} {:>12}  {:>12} {:>12}  {:>16} {:>16} {:>32} {:>14}",
         "confidence", "sensitivity", "false alarms", "sens. batch", "f.a. batch", "sens. watch", "f.a. watch", "delay (inv)", "delay (d)", "paid before", "alarm already"
     );
     for l in &t.levels {
         let _ = writeln!(
             s,
-            "{:>9.1}%  {:>16}  {:>16}  {:>12} {:>12}  {:>12} {:>12}  {:>11} {:>10} {:>14} {:>14}",
+            "{:>9.1}%  {:>16}  {:>16}  {:>12} {:>12}  {:>12} {:>12}  {:>16} {:>16} {:>32} {:>14}",
             l.confidence * 100.0,
             pct_se(l.sensitivity, l.sensitivity_se),
             pct_se(l.false_alarm_rate, l.false_alarm_rate_se),
@@ -1007,16 +1214,131 @@ pub fn render_text(t: &TrialReport) -> String {
             pct(l.batch.false_alarm_rate),
             pct(l.monitoring.sensitivity),
             pct(l.monitoring.false_alarm_rate),
-            num(l.median_delay_invoices, 0),
-            num(l.median_delay_days, 0),
-            num(l.paid_before_detection, 2),
+            med(l.median_delay_invoices, l.median_delay_invoices_interval, 0),
+            med(l.median_delay_days, l.median_delay_days_interval, 0),
+            med(l.paid_before_detection, l.paid_before_detection_interval, 2),
             pct(l.alarmed_before_injection),
         );
     }
-    let _ = writeln!(s, "\nsensitivity: injected suppliers caught by the batch screen or the monitor; false alarms: untouched control suppliers with an alarm; ± one Monte Carlo standard error. Delay and paid before: medians over the suppliers caught after their first invented invoice (invoices and days from it to the alarm; invented amount paid by then). Alarm already: injected suppliers whose real invoices had raised the monitor's alarm before any invented one.");
+    let _ = writeln!(s, "\nsensitivity: injected suppliers caught by the batch screen or the monitor; false alarms: untouched control suppliers with an alarm; ± one Monte Carlo standard error. Delay and paid before: medians over the suppliers caught after their first invented invoice (invoices and days from it to the alarm; invented amount paid by then), in brackets the 95 % distribution-free interval for each median from order statistics (Conover, Practical Nonparametric Statistics, 3rd ed., §3.2), \"too few\" below 6 values. Alarm already: injected suppliers whose real invoices had raised the monitor's alarm before any invented one.");
     if let Some(b) = t.by_hand_sources {
         let _ = writeln!(s, "\n{b}");
     }
     let _ = writeln!(s, "\n{}", t.caution);
     s
+}
+
+/// The first line of every trial export: what it is (a trial on invented invoices, not the
+/// screen's results) and how it was run.
+pub fn export_notice(t: &TrialReport) -> String {
+    let p = &t.parameters;
+    format!(
+        "digitdrift DETECTION TRIAL on invented invoices placed in a copy of the ledger - not the screen's results and not findings about the real ledger. Pattern: {}; share {}{}; {} replications; seed {}",
+        p.pattern_description,
+        p.share,
+        p.from.as_ref().map_or(String::new(), |d| format!(" of invoices from {d}")),
+        p.replications,
+        p.seed
+    )
+}
+
+/// The trial's results as CSV (RFC 4180, `\r\n`, every text cell formula-neutralised by
+/// [`crate::export::cell`]), kept apart from the screen's exports: its first line marks it as a
+/// trial on invented invoices, every data row says so again in its first column, and the
+/// parameters, the pool and the caution come before the table. One row per confidence level
+/// and detection route (screen or monitor; batch screen alone; monitor alone).
+pub fn trial_csv(t: &TrialReport, file_name: &str, sha256: &str) -> String {
+    use crate::export::{cell, num, row};
+    let p = &t.parameters;
+    let mut out = String::new();
+    row(&mut out, &[cell(&format!("# {}", export_notice(t))), cell(&format!("file: {file_name}")), cell(&format!("sha256: {sha256}"))]);
+    row(
+        &mut out,
+        &[cell(&format!(
+            "# pattern {}; share {}; from {}; replications {} (planned {}); seed {}; controls {}; calibration seed {} simulations {} correction {:?}; screen confidence {}",
+            serde_json::to_string(&p.pattern).unwrap_or_default().trim_matches('"'),
+            p.share,
+            p.from.as_deref().unwrap_or("start"),
+            p.replications,
+            p.replications_planned,
+            p.seed,
+            p.controls,
+            p.calibration_seed,
+            p.calibration_sims,
+            p.correction,
+            p.screen_confidence
+        ))],
+    );
+    let mut pool = vec![cell(&format!("# pool of {} suppliers that may get invented invoices", t.pool.len()))];
+    pool.extend(t.pool.iter().map(|s| cell(&s.name)));
+    row(&mut out, &pool);
+    row(&mut out, &[cell(&format!("# {}", t.caution))]);
+    row(
+        &mut out,
+        &[
+            "record", "confidence", "detection", "sensitivity", "sensitivity_se", "false_alarm_rate", "false_alarm_rate_se",
+            "median_delay_invoices", "median_delay_invoices_low", "median_delay_invoices_high",
+            "median_delay_days", "median_delay_days_low", "median_delay_days_high",
+            "paid_before_detection", "paid_before_detection_low", "paid_before_detection_high",
+            "detected", "detected_after_injection", "alarmed_before_injection",
+        ]
+        .map(String::from),
+    );
+    let o = |x: Option<f64>, d: usize| x.map_or(String::new(), |v| num(v, d));
+    let iv = |m: Option<f64>, i: Option<MedianInterval>, d: usize| -> [String; 3] { [o(m, d), o(i.map(|i| i.low), d), o(i.map(|i| i.high), d)] };
+    for l in &t.levels {
+        let parts: [(&str, &Part); 2] = [("batch_screen", &l.batch), ("monitor", &l.monitoring)];
+        let mut emit = |route: &str, sens: Option<f64>, sens_se, fa: Option<f64>, fa_se, med: [[String; 3]; 3], extra: [String; 3]| {
+            let mut cells = vec![cell("trial (invented invoices)"), num(l.confidence, 4), cell(route), o(sens, 6), o(sens_se, 6), o(fa, 6), o(fa_se, 6)];
+            for m in med {
+                cells.extend(m);
+            }
+            cells.extend(extra);
+            row(&mut out, &cells);
+        };
+        emit(
+            "screen_or_monitor",
+            l.sensitivity,
+            l.sensitivity_se,
+            l.false_alarm_rate,
+            l.false_alarm_rate_se,
+            [
+                iv(l.median_delay_invoices, l.median_delay_invoices_interval, 1),
+                iv(l.median_delay_days, l.median_delay_days_interval, 1),
+                iv(l.paid_before_detection, l.paid_before_detection_interval, 2),
+            ],
+            [l.detected.to_string(), l.detected_after_injection.to_string(), o(l.alarmed_before_injection, 6)],
+        );
+        for (route, pt) in parts {
+            emit(
+                route,
+                pt.sensitivity,
+                pt.sensitivity_se,
+                pt.false_alarm_rate,
+                pt.false_alarm_rate_se,
+                [
+                    iv(pt.median_delay_invoices, pt.median_delay_invoices_interval, 1),
+                    iv(pt.median_delay_days, pt.median_delay_days_interval, 1),
+                    iv(pt.paid_before_detection, pt.paid_before_detection_interval, 2),
+                ],
+                [String::new(), String::new(), String::new()],
+            );
+        }
+    }
+    out
+}
+
+/// The trial's results as JSON, marked the same way: `{"notice", "file", "sha256", "caution",
+/// "trial": <the report>}`, `notice` first.
+pub fn trial_json(t: &TrialReport, file_name: &str, sha256: &str) -> String {
+    #[derive(Serialize)]
+    struct Export<'a> {
+        notice: String,
+        file: &'a str,
+        sha256: &'a str,
+        caution: &'static str,
+        trial: &'a TrialReport,
+    }
+    let e = Export { notice: export_notice(t), file: file_name, sha256, caution: t.caution, trial: t };
+    serde_json::to_string_pretty(&e).unwrap_or_default() + "\n"
 }

@@ -12,7 +12,10 @@
 //!   below the level plus the change detector's Doob bound (Ville 1939; Pollak 1987);
 //! - share 100 % evenly spread at 1,000 invoices: sensitivity >= 99 %;
 //! - sensitivity rises with the share and with the number of invoices (within Monte Carlo error);
-//! - same seed, same numbers; another seed, numbers within the stated Monte Carlo error;
+//! - same seed, same numbers; another seed, numbers within the stated Monte Carlo error (rates
+//!   within 4 standard errors; the 95 % intervals of the medians overlap);
+//! - the medians' intervals use the ranks of Conover's order-statistic interval (Practical
+//!   Nonparametric Statistics, 3rd ed., §3.2), recomputed here from exact binomial sums;
 //! - the trial's batch verdicts and monitor alarms are exactly those of `report::screen` and
 //!   `monitor::watch` run on the copy of the ledger it describes, and the session's ledger is
 //!   never changed.
@@ -24,7 +27,10 @@ use digitdrift_core::intake::{days_from_civil, format_date, Intake, IntakeOption
 use digitdrift_core::ledger::FLAG_INJECTED;
 use digitdrift_core::monitor::{watch, WatchOptions};
 use digitdrift_core::report::{screen, ScreenOptions};
-use digitdrift_core::trial::{by_hand_amount, LevelSummary, Pattern, Trial, TrialOptions, TrialReport, BY_HAND_LATER};
+use digitdrift_core::trial::{
+    by_hand_amount, median_rank_exact, median_ranks, trial_csv, trial_json, LevelSummary, MedianInterval, Pattern, Trial, TrialOptions, TrialReport,
+    BY_HAND_LATER,
+};
 use digitdrift_core::rng::DetRng;
 use digitdrift_core::Amount;
 
@@ -153,8 +159,33 @@ fn same_seed_same_numbers_other_seed_within_error() {
             assert!((p - q).abs() <= 4.0 * (sp * sp + sq * sq).sqrt() + 1e-12, "{p} vs {q}");
         }
     }
+    // Medians: two independent runs each give an interval covering the true median with
+    // probability >= 95 % (Conover §3.2), so the two intervals overlap unless one of them misses.
+    let mut compared = 0;
+    for (la, lb) in ra.levels.iter().zip(&rb.levels) {
+        let pairs: [(Option<f64>, Option<MedianInterval>, Option<f64>, Option<MedianInterval>); 6] = [
+            (la.median_delay_invoices, la.median_delay_invoices_interval, lb.median_delay_invoices, lb.median_delay_invoices_interval),
+            (la.median_delay_days, la.median_delay_days_interval, lb.median_delay_days, lb.median_delay_days_interval),
+            (la.paid_before_detection, la.paid_before_detection_interval, lb.paid_before_detection, lb.paid_before_detection_interval),
+            (la.monitoring.median_delay_invoices, la.monitoring.median_delay_invoices_interval, lb.monitoring.median_delay_invoices, lb.monitoring.median_delay_invoices_interval),
+            (la.monitoring.median_delay_days, la.monitoring.median_delay_days_interval, lb.monitoring.median_delay_days, lb.monitoring.median_delay_days_interval),
+            (la.monitoring.paid_before_detection, la.monitoring.paid_before_detection_interval, lb.monitoring.paid_before_detection, lb.monitoring.paid_before_detection_interval),
+        ];
+        for (ma, ia, mb, ib) in pairs {
+            if let (Some(ma), Some(ia), Some(mb), Some(ib)) = (ma, ia, mb, ib) {
+                println!("confidence {:.3}: median seed 1 {ma:.1} ({:.1}-{:.1}, m={}), seed 2 {mb:.1} ({:.1}-{:.1}, m={})", la.confidence, ia.low, ia.high, ia.observations, ib.low, ib.high, ib.observations);
+                assert!(ia.low <= ma && ma <= ia.high && ib.low <= mb && mb <= ib.high, "a median outside its own interval");
+                assert!(ia.low <= ib.high && ib.low <= ia.high, "intervals of the two seeds do not overlap: {ia:?} {ib:?}");
+                assert!(ia.coverage >= 0.95 && ib.coverage >= 0.95);
+                compared += 1;
+            }
+        }
+    }
+    assert!(compared >= 6, "too few medians with an interval to compare ({compared})");
     let l = level(&ra, 0.95);
     assert!(l.sensitivity_se.unwrap() > 0.0, "the error estimate must be able to be non-zero");
+    let iv = l.median_delay_invoices_interval.unwrap();
+    assert!(iv.high > iv.low, "the interval of a median must be able to have a width");
     assert_ne!(serde_json::to_string(&ra).unwrap(), serde_json::to_string(&rb).unwrap());
 }
 
@@ -242,4 +273,89 @@ fn invented_by_hand_digits_follow_the_stated_preferences() {
     let no_redraw: f64 = BY_HAND_LATER.iter().map(|&w| (w as f64 / 1000.0).powi(2)).sum();
     println!("by hand: later digits {counts:?} of {tot}; repeats {:.3} (chance {no_redraw:.3})", repeats as f64 / pairs as f64);
     assert!((repeats as f64 / pairs as f64) < no_redraw * 0.6);
+}
+
+/// Σ_{i ≤ k} C(m, i) in u128 (exact for m ≤ 120), computed independently of the core.
+fn binom_sum_u128(m: u64, k: u64) -> u128 {
+    let mut c: u128 = 1;
+    let mut s: u128 = 1;
+    for i in 0..k {
+        c = c * (m - i) as u128 / (i + 1) as u128;
+        s += c;
+    }
+    s
+}
+
+#[test]
+fn median_interval_ranks_follow_the_binomial_order_statistic_rule() {
+    // Conover, Practical Nonparametric Statistics, 3rd ed., §3.2 (p = 1/2): r − 1 is the largest
+    // k with P(Y ≤ k) ≤ 0.025 for Y ~ Binomial(m, 1/2), s = m + 1 − r. Worked by hand: m = 10,
+    // P(Y ≤ 1) = 11/1024 = 0.0107, P(Y ≤ 2) = 56/1024 = 0.0547, so [X(2), X(9)] with coverage
+    // 1 − 22/1024 = 0.978515625; m = 20, P(Y ≤ 5) = 21700/2^20 = 0.0207, P(Y ≤ 6) = 0.0577, so
+    // [X(6), X(15)], coverage 0.958610 (also scipy.stats.binom, tests/reference/test_trial_cli.py).
+    assert_eq!(median_ranks(10).map(|x| (x.0, x.1)), Some((2, 9)));
+    assert!((median_ranks(10).unwrap().2 - (1.0 - 22.0 / 1024.0)).abs() < 1e-12);
+    assert_eq!(median_ranks(20).map(|x| (x.0, x.1)), Some((6, 15)));
+    assert!((median_ranks(20).unwrap().2 - (1.0 - 2.0 * 21700.0 / 1048576.0)).abs() < 1e-12);
+    // Below 6 observations even [X(1), X(m)] covers less than 95 % (1 − 2^(1−m)).
+    for m in 0..6 {
+        assert_eq!(median_ranks(m), None, "m = {m}");
+        assert_eq!(median_rank_exact(m), None);
+    }
+    assert_eq!(median_ranks(6).map(|x| (x.0, x.1)), Some((1, 6)));
+    // Exact integer rule, recomputed here in u128, for every m from 6 to 120.
+    for m in 6..=120u64 {
+        let two_m: u128 = 1u128 << m;
+        let k = (0..m).take_while(|&k| 40 * binom_sum_u128(m, k) <= two_m).last().unwrap();
+        let (r, s, cov) = median_ranks(m).unwrap();
+        assert_eq!((r, s), (k + 1, m - k), "m = {m}");
+        assert_eq!(median_rank_exact(m), Some(k + 1));
+        let want = 1.0 - 2.0 * (binom_sum_u128(m, k) as f64 / two_m as f64);
+        assert!((cov - want).abs() < 1e-12 && cov >= 0.95, "m = {m}: coverage {cov} vs {want}");
+    }
+    // The log-space sum agrees with the exact big-integer rule far beyond u128.
+    for m in (121..=1500u64).chain([2047, 4096, 5000]) {
+        assert_eq!(median_ranks(m).map(|x| x.0), median_rank_exact(m), "m = {m}");
+    }
+}
+
+#[test]
+fn trial_export_is_marked_kept_apart_and_formula_safe() {
+    // A supplier named like a formula: the pool row lists it, and it must come out neutralised
+    // (OWASP CSV-injection guidance, as the screen's exports: leading apostrophe — from memory).
+    let mut res = honest(&[300, 300, 300, 300], 18);
+    res.ledger.suppliers[1].name = "=HYPERLINK(\"x\")".into();
+    res.ledger.suppliers[2].name = "-2+3, Ltd".into();
+    let o = TrialOptions { share: 0.3, seed: 9, replications: 3, calibration: cal(500, Correction::Fdr), ..TrialOptions::default() };
+    let (_, r) = run(&res, o);
+    let csv = trial_csv(&r, "@ledger.csv", "abc123");
+    let mut rd = csv::ReaderBuilder::new().has_headers(false).flexible(true).from_reader(csv.as_bytes());
+    let rows: Vec<Vec<String>> = rd.records().map(|x| x.unwrap().iter().map(String::from).collect()).collect();
+    assert!(rows[0][0].starts_with("# digitdrift DETECTION TRIAL on invented invoices"), "{}", rows[0][0]);
+    assert!(rows[0][0].contains("seed 9") && rows[0][0].contains("3 replications") && rows[0][0].contains("share 0.3"));
+    assert!(rows[0][0].contains("not the screen's results"));
+    assert!(csv.contains("reason to look, not proof"), "the caution is in the export");
+    assert!(rows.iter().flatten().any(|c| c == "'=HYPERLINK(\"x\")"), "formula-like supplier name neutralised");
+    assert!(rows.iter().flatten().any(|c| c == "'-2+3, Ltd"));
+    for c in rows.iter().flatten() {
+        assert!(!c.starts_with(['=', '+', '@', '\t', '\r']), "cell not neutralised: {c}");
+        assert!(!c.starts_with('-') || c.parse::<f64>().is_ok(), "text cell starting with '-': {c}");
+    }
+    let header = rows.iter().position(|r| r[0] == "record").unwrap();
+    let data = &rows[header + 1..];
+    assert_eq!(data.len(), 3 * r.levels.len());
+    assert!(data.iter().all(|d| d[0] == "trial (invented invoices)" && d.len() == rows[header].len()));
+    let l = level(&r, 0.95);
+    let d = data.iter().find(|d| d[1] == "0.9500" && d[2] == "screen_or_monitor").unwrap();
+    assert_eq!(d[3].parse::<f64>().unwrap(), (l.sensitivity.unwrap() * 1e6).round() / 1e6);
+    if let Some(iv) = l.median_delay_invoices_interval {
+        assert_eq!(d[8].parse::<f64>().unwrap(), iv.low);
+        assert_eq!(d[9].parse::<f64>().unwrap(), iv.high);
+    }
+    assert!(csv.split("\r\n").all(|l| !l.contains('\n')) && csv.ends_with("\r\n"), "RFC 4180 line ends");
+    let j: serde_json::Value = serde_json::from_str(&trial_json(&r, "@ledger.csv", "abc123")).unwrap();
+    assert!(j["notice"].as_str().unwrap().starts_with("digitdrift DETECTION TRIAL on invented invoices"));
+    assert_eq!(j["trial"]["parameters"]["seed"], 9);
+    assert!(j["caution"].as_str().unwrap().contains("not proof"));
+    assert_eq!(j["trial"]["levels"].as_array().unwrap().len(), r.levels.len());
 }

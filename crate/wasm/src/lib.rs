@@ -75,6 +75,8 @@ pub struct Session {
     fingerprint: digitdrift_core::export::Fingerprint,
     /// The detection trial in progress: it reads the ledger, never changes it.
     trial: Option<digitdrift_core::trial::Trial>,
+    /// The summary of the last finished trial: what the trial exports write.
+    trial_last: Option<digitdrift_core::trial::TrialReport>,
 }
 
 #[wasm_bindgen]
@@ -82,7 +84,7 @@ impl Session {
     #[wasm_bindgen(constructor)]
     pub fn new(options: JsValue) -> Result<Session, JsValue> {
         let o = intake_options(options)?;
-        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None })
+        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None, trial_last: None })
     }
 
     /// Feed the next chunk of the file, in order.
@@ -244,9 +246,26 @@ impl Session {
     }
 
     /// The trial's summary over the replications done so far (reported apart from the screen).
+    /// It is kept as the one the trial exports write.
     #[wasm_bindgen(js_name = trialReport)]
-    pub fn trial_report(&self) -> Result<JsValue, JsValue> {
-        to_js(&self.trial.as_ref().ok_or_else(|| err("no trial prepared"))?.report())
+    pub fn trial_report(&mut self) -> Result<JsValue, JsValue> {
+        let rep = self.trial.as_ref().ok_or_else(|| err("no trial prepared"))?.report();
+        let js = to_js(&rep);
+        self.trial_last = Some(rep);
+        js
+    }
+
+    /// The last trial's results as CSV (`format` "csv") or JSON ("json"), marked as a trial on
+    /// invented invoices; never part of the screen's exports.
+    #[wasm_bindgen(js_name = trialExport)]
+    pub fn trial_export(&self, format: &str, file_name: &str) -> Result<String, JsValue> {
+        let rep = self.trial_last.as_ref().ok_or_else(|| err("no finished trial to export"))?;
+        let sha = self.fingerprint.hex();
+        match format {
+            "csv" => Ok(digitdrift_core::trial::trial_csv(rep, file_name, &sha)),
+            "json" => Ok(digitdrift_core::trial::trial_json(rep, file_name, &sha)),
+            _ => Err(err(format!("unknown export format '{format}'"))),
+        }
     }
 
     /// Drop the trial (after Cancel).
