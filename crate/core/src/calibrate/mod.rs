@@ -253,6 +253,40 @@ impl NullTable {
         NullTable { n, sorted: cols }
     }
 
+    /// Simulate the tables for every n in `ns` (in that order), split over up to `threads`
+    /// threads ([`split_sizes`]; one thread on wasm32, where the page spreads the sizes over
+    /// Workers instead). Each table comes from its own stream (seed, "null", n), so the tables
+    /// are the same whatever the split.
+    pub fn simulate_many(benford: &Categorical, ns: &[u64], sims: u32, seed: u64, threads: usize) -> Vec<NullTable> {
+        let threads = if cfg!(target_arch = "wasm32") { 1 } else { threads.clamp(1, ns.len().max(1)) };
+        if threads == 1 {
+            return ns.iter().map(|&n| NullTable::simulate(benford, n, sims, seed)).collect();
+        }
+        let parts = split_sizes(ns, threads);
+        let run = |part: &Vec<u64>| part.iter().map(|&n| NullTable::simulate(benford, n, sims, seed)).collect::<Vec<_>>();
+        let done: Vec<Vec<NullTable>> = std::thread::scope(|sc| {
+            let hs: Vec<_> = parts[1..].iter().map(|part| sc.spawn(move || run(part))).collect();
+            let mut out = vec![run(&parts[0])];
+            out.extend(hs.into_iter().map(|h| h.join().expect("null table thread")));
+            out
+        });
+        let mut by_n: HashMap<u64, NullTable> = done.into_iter().flatten().map(|t| (t.n, t)).collect();
+        ns.iter().map(|n| by_n.remove(n).unwrap_or_else(|| NullTable::simulate(benford, *n, sims, seed))).collect()
+    }
+
+    /// A table from its four sorted columns (mad, chi_square, ks, max_z), e.g. one simulated by
+    /// another Worker. Panics unless the columns have equal length and are ascending.
+    pub fn from_columns(n: u64, cols: [Vec<f64>; 4]) -> NullTable {
+        assert!(cols.iter().all(|c| c.len() == cols[0].len()), "columns of equal length");
+        assert!(cols.iter().all(|c| c.windows(2).all(|w| w[0].total_cmp(&w[1]).is_le())), "columns sorted");
+        NullTable { n, sorted: cols }
+    }
+
+    /// The four sorted columns (mad, chi_square, ks, max_z).
+    pub fn columns(&self) -> &[Vec<f64>; 4] {
+        &self.sorted
+    }
+
     pub fn sims(&self) -> usize {
         self.sorted[0].len()
     }
@@ -280,6 +314,32 @@ impl NullTable {
         let k = (k as usize).min(v.len() - 1);
         v[v.len() - 1 - k]
     }
+}
+
+/// Threads used natively to simulate a batch of missing null tables ([`Calibrator::prepare`]).
+pub const TABLE_THREADS: usize = 2;
+
+/// Relative cost of simulating one null table at n: the guide table costs O(n) up to
+/// [`sample::GUIDE_MAX_N`], the binomial chain about as much as the guide at that n; the
+/// statistics about as much as 100 invoices (rough figures from `benches/calibrate.rs`).
+fn table_cost(n: u64) -> u64 {
+    n.min(sample::GUIDE_MAX_N) + 100
+}
+
+/// Split table sizes into `parts` lists of about equal simulation cost (largest first, each to
+/// the least loaded list; ties to the lower list), so any order of `ns` gives the same split.
+pub fn split_sizes(ns: &[u64], parts: usize) -> Vec<Vec<u64>> {
+    let parts = parts.max(1);
+    let mut order: Vec<u64> = ns.to_vec();
+    order.sort_unstable_by(|a, b| table_cost(*b).cmp(&table_cost(*a)).then(b.cmp(a)));
+    let mut out = vec![Vec::new(); parts];
+    let mut load = vec![0u64; parts];
+    for n in order {
+        let i = (0..parts).min_by_key(|&i| (load[i], i)).unwrap_or(0);
+        load[i] += table_cost(n);
+        out[i].push(n);
+    }
+    out
 }
 
 /// The grid point g's sample size: round(10^(g / GRID_PER_DECADE)).
@@ -411,13 +471,14 @@ pub struct Calibrator {
     opts: CalibrationOptions,
     benford: Categorical,
     tables: HashMap<u64, NullTable>,
+    threads: usize,
 }
 
 impl Calibrator {
     pub fn new(opts: CalibrationOptions) -> Calibrator {
         assert!(opts.sims >= 1, "sims >= 1");
         assert!(opts.confidence > 0.0 && opts.confidence < 1.0, "0 < confidence < 1");
-        Calibrator { opts, benford: Categorical::new(&benford::first_two()), tables: HashMap::new() }
+        Calibrator { opts, benford: Categorical::new(&benford::first_two()), tables: HashMap::new(), threads: TABLE_THREADS }
     }
 
     pub fn options(&self) -> &CalibrationOptions {
@@ -437,6 +498,45 @@ impl Calibrator {
     /// Number of cached tables.
     pub fn cached_tables(&self) -> usize {
         self.tables.len()
+    }
+
+    /// Threads for [`Calibrator::prepare`] inside [`Calibrator::ledger`] (default
+    /// [`TABLE_THREADS`]; always 1 on wasm32). Numbers do not depend on it.
+    pub fn set_threads(&mut self, threads: usize) {
+        self.threads = threads.max(1);
+    }
+
+    /// The null-table sizes that calibrating suppliers of sizes `ns` (p-values and critical MAD)
+    /// reads and that are not cached yet, ascending and distinct.
+    pub fn missing_tables(&self, ns: &[u64]) -> Vec<u64> {
+        let mut need: Vec<u64> = ns
+            .iter()
+            .filter(|&&n| n > 0)
+            .flat_map(|&n| {
+                let (a, b, _) = Self::bracket(n);
+                [a, b]
+            })
+            .filter(|m| !self.tables.contains_key(m))
+            .collect();
+        need.sort_unstable();
+        need.dedup();
+        need
+    }
+
+    /// Put a table simulated elsewhere (e.g. by another Worker) in the cache. It must be the
+    /// table of this calibrator's seed and sims at `t.n`; panics on a different number of sims.
+    pub fn insert_table(&mut self, t: NullTable) {
+        assert_eq!(t.sims(), self.opts.sims as usize, "table with this calibrator's sims");
+        self.tables.insert(t.n, t);
+    }
+
+    /// Simulate every missing table for suppliers of sizes `ns` at once, over up to `threads`
+    /// threads. The same tables as lazily one by one: each is seeded by its own n.
+    pub fn prepare(&mut self, ns: &[u64], threads: usize) {
+        let need = self.missing_tables(ns);
+        for t in NullTable::simulate_many(&self.benford, &need, self.opts.sims, self.opts.seed, threads) {
+            self.tables.insert(t.n, t);
+        }
     }
 
     /// The tables and weight used at n: exact (n, n, 0) or neighbours (n0, n1, w in (0, 1)).
@@ -617,6 +717,19 @@ impl Calibrator {
 
     /// Calibrate a whole supplier list with the chosen correction across it (q = 1 - confidence).
     pub fn ledger(&mut self, inputs: &[SupplierInput]) -> LedgerCalibration {
+        // All null tables first, over threads: those of the suppliers' own sizes and the power
+        // checkpoints every curve passes (10^(j/4) up to the first at or above the largest n).
+        let mut ns: Vec<u64> = inputs.iter().map(|s| s.first_two_counts.iter().sum()).collect();
+        let nmax = ns.iter().copied().max().unwrap_or(0);
+        let mut g = GRID_PER_DECADE;
+        while nmax > 0 && grid_n(g) <= self.opts.max_invoices {
+            ns.push(grid_n(g));
+            if grid_n(g) >= nmax {
+                break;
+            }
+            g += GRID_PER_DECADE / POWER_PER_DECADE;
+        }
+        self.prepare(&ns, self.threads);
         let bases: Vec<NullCalibration> = inputs.iter().map(|s| self.null_only(&s.first_two_counts)).collect();
         let ps: Vec<f64> = bases.iter().map(|b| b.mc_p_value).collect();
         let q = self.alpha();
