@@ -4,7 +4,7 @@
 
 use crate::amount::Amount;
 use crate::benford;
-use crate::calibrate::{CalibrationOptions, Calibrator, Categorical, Moments, SupplierInput};
+use crate::calibrate::{CalibrationOptions, Calibrator, Categorical, Moments, NullTable, SupplierInput};
 use crate::rng::DetRng;
 
 /// `sims` multinomial samples of `n` invoices over the 90 first-two bins under Benford, each
@@ -44,11 +44,54 @@ pub fn ledger_500() -> Vec<SupplierInput> {
 /// Calibrates [`ledger_500`] from a cold cache at the default 10,000 simulations per size:
 /// `full` adds power curves and invoices needed. Returns the number of alarms.
 pub fn calibrate_ledger_500(full: bool) -> usize {
+    calibrate_ledger_500_threads(full, 1)
+}
+
+/// As [`calibrate_ledger_500`], with the missing null tables simulated first over `threads`
+/// threads ([`Calibrator::prepare`]; one on wasm32). Same numbers for any `threads`.
+pub fn calibrate_ledger_500_threads(full: bool, threads: usize) -> usize {
     let inputs = ledger_500();
     let mut cal = Calibrator::new(CalibrationOptions::default());
+    cal.set_threads(threads);
     if full {
         cal.ledger(&inputs).alarms
     } else {
+        let ns: Vec<u64> = inputs.iter().map(|s| s.first_two_counts.iter().sum()).collect();
+        cal.prepare(&ns, threads);
         inputs.iter().filter(|s| cal.null_only(&s.first_two_counts).mc_p_value <= 0.05).count()
     }
+}
+
+/// The null-table sizes [`calibrate_ledger_500`] without power curves needs (cold cache).
+pub fn ledger_500_table_sizes() -> Vec<u64> {
+    let ns: Vec<u64> = ledger_500().iter().map(|s| s.first_two_counts.iter().sum()).collect();
+    Calibrator::new(CalibrationOptions::default()).missing_tables(&ns)
+}
+
+/// [`calibrate_ledger_500`] without power curves, from tables simulated elsewhere (e.g. by two
+/// Workers): `ns` and, per n, its four sorted columns of `sims` values concatenated in `flat`
+/// (as [`null_tables_flat`] gives them). Returns the number of alarms.
+pub fn calibrate_ledger_500_from(ns: &[u64], flat: &[f64]) -> usize {
+    let inputs = ledger_500();
+    let mut cal = Calibrator::new(CalibrationOptions::default());
+    let sims = cal.options().sims as usize;
+    assert_eq!(flat.len(), ns.len() * 4 * sims, "4 columns of sims values per table");
+    for (i, &n) in ns.iter().enumerate() {
+        let at = |j: usize| flat[(4 * i + j) * sims..(4 * i + j + 1) * sims].to_vec();
+        cal.insert_table(NullTable::from_columns(n, [at(0), at(1), at(2), at(3)]));
+    }
+    inputs.iter().filter(|s| cal.null_only(&s.first_two_counts).mc_p_value <= 0.05).count()
+}
+
+/// The null tables at `ns` (default seed and sims), each as its four sorted columns, concatenated.
+pub fn null_tables_flat(ns: &[u64]) -> Vec<f64> {
+    let o = CalibrationOptions::default();
+    let cat = Categorical::new(&benford::first_two());
+    let mut out = Vec::with_capacity(ns.len() * 4 * o.sims as usize);
+    for t in NullTable::simulate_many(&cat, ns, o.sims, o.seed, 1) {
+        for c in t.columns() {
+            out.extend_from_slice(c);
+        }
+    }
+    out
 }

@@ -170,6 +170,54 @@ fn results_do_not_depend_on_order() {
 }
 
 #[test]
+fn tables_split_over_threads_give_the_same_numbers() {
+    // Each null table is seeded by its own n (seed, "null", n), so simulating a batch over two
+    // threads must give bit-identical tables, and a whole list the same result, as the lazy
+    // one-by-one path (project invariant 5, checked against NullTable::simulate itself).
+    let p = benford::first_two();
+    let cat = Categorical::new(&p);
+    let ns = [7u64, 99, 100, 316, 1000, 5623, 6000, 17_783, 31];
+    let two = NullTable::simulate_many(&cat, &ns, 500, 3, 2);
+    for (t, &n) in two.iter().zip(&ns) {
+        let one = NullTable::simulate(&cat, n, 500, 3);
+        assert_eq!(t.n, n);
+        for (a, b) in t.columns().iter().zip(one.columns()) {
+            assert!(a.iter().zip(b).all(|(x, y)| x.to_bits() == y.to_bits()), "n = {n}");
+        }
+    }
+    // the split covers every size once, and no part exceeds another by more than one table's cost
+    let parts = digitdrift_core::calibrate::split_sizes(&ns, 2);
+    let mut all: Vec<u64> = parts.concat();
+    all.sort_unstable();
+    let mut want = ns.to_vec();
+    want.sort_unstable();
+    assert_eq!(all, want);
+    let cost = |v: &Vec<u64>| v.iter().map(|&n| n.min(6000) + 100).sum::<u64>();
+    assert!(cost(&parts[0]).abs_diff(cost(&parts[1])) <= 6100, "{parts:?}");
+
+    let mut rng = DetRng::seed_from_u64(8);
+    let inputs: Vec<SupplierInput> = [12u64, 40, 40, 250, 1800, 9000]
+        .iter()
+        .map(|&n| {
+            let mut c = vec![0u64; 90];
+            cat.add(&mut rng, n, &mut c);
+            SupplierInput { first_two_counts: c, amount_min: Amount::from_units(11), amount_max: Amount::from_units(3000) }
+        })
+        .collect();
+    let o = CalibrationOptions { sims: 1000, power_sims: 60, ..Default::default() };
+    let run = |threads: usize| {
+        let mut c = Calibrator::new(o.clone());
+        c.set_threads(threads);
+        c.ledger(&inputs)
+    };
+    let (a, b) = (run(1), run(2));
+    assert_eq!(a, b);
+    let mut lazy = Calibrator::new(o.clone());
+    let one: Vec<_> = inputs.iter().map(|s| lazy.null_only(&s.first_two_counts).mc_p_value).collect();
+    assert_eq!(one, b.suppliers.iter().map(|s| s.mc_p_value).collect::<Vec<_>>());
+}
+
+#[test]
 fn verdicts_and_invoices_needed() {
     let mut cal = Calibrator::new(CalibrationOptions { sims: 2000, power_sims: 200, ..Default::default() });
     // 8 invoices spread over the digits: nothing could be detected at this size.

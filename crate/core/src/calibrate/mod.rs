@@ -119,7 +119,6 @@ pub struct CountStats {
 #[derive(Clone, Debug)]
 pub struct Moments {
     n: u64,
-    p: Vec<f64>,
     e: Vec<f64>,
     inv_e: Vec<f64>,
     cum_e: Vec<f64>,
@@ -146,7 +145,7 @@ impl Moments {
                 if v > 0.0 { 1.0 / libm::sqrt(v) } else { 0.0 }
             })
             .collect();
-        Moments { n, p: p.to_vec(), e, inv_e, cum_e, inv_sd }
+        Moments { n, e, inv_e, cum_e, inv_sd }
     }
 
     pub fn n(&self) -> u64 {
@@ -160,8 +159,9 @@ impl Moments {
             return 0.0;
         }
         let mut s = 0.0;
-        for i in 0..self.e.len() {
-            s += libm::fabs(c[i] as f64 - self.e[i]);
+        let c = &c[..self.e.len()];
+        for (&ci, &e) in c.iter().zip(&self.e) {
+            s += libm::fabs(ci as i64 as f64 - e);
         }
         s / (self.n as f64 * self.e.len() as f64)
     }
@@ -173,20 +173,32 @@ impl Moments {
         }
         let nf = self.n as f64;
         let (mut sad, mut chi, mut ks, mut mz) = (0.0f64, 0.0f64, 0.0f64, 0.0f64);
-        let mut cum = 0.0f64;
-        for i in 0..self.e.len() {
-            let ci = c[i] as f64;
-            let d = ci - self.e[i];
+        // Counts are converted through i64 (one instruction on x86_64; the same value below
+        // 2^63) and cumulated as integers (exact, so the same as a float running sum below
+        // 2^53). inv_sd[i] is 0 where p_i is 0 or 1, so num * inv_sd[i] is the 0 of z_stat there.
+        // No statistic is NaN, so plain comparisons give the same maxima as f64::max.
+        let k = self.e.len();
+        let (e, inv_e, cum_e, inv_sd) = (&self.e[..k], &self.inv_e[..k], &self.cum_e[..k], &self.inv_sd[..k]);
+        let c = &c[..k];
+        let mut cum = 0i64;
+        for i in 0..k {
+            let ci = c[i] as i64;
+            let d = ci as f64 - e[i];
             let ad = libm::fabs(d);
             sad += ad;
-            chi += d * d * self.inv_e[i];
+            chi += d * d * inv_e[i];
             cum += ci;
-            ks = ks.max(libm::fabs(cum - self.cum_e[i]));
+            let dk = libm::fabs(cum as f64 - cum_e[i]);
+            if dk > ks {
+                ks = dk;
+            }
             // continuity correction of 1/(2n) in proportions = 0.5 in counts, applied only
             // when smaller than the difference (as crate::stats::z_stat)
             let num = if 0.5 < ad { ad - 0.5 } else { ad };
-            let z = if self.p[i] > 0.0 && self.p[i] < 1.0 { num * self.inv_sd[i] } else { 0.0 };
-            mz = mz.max(z);
+            let z = num * inv_sd[i];
+            if z > mz {
+                mz = z;
+            }
         }
         CountStats { mad: sad / (nf * self.e.len() as f64), chi_square: chi, ks: ks / nf, max_z: mz }
     }
@@ -235,9 +247,44 @@ impl NullTable {
             cols[3].push(s.max_z);
         }
         for col in cols.iter_mut() {
-            col.sort_by(|a, b| a.total_cmp(b));
+            // total_cmp-equal values are bit-identical, so an unstable sort gives the same column
+            col.sort_unstable_by(|a, b| a.total_cmp(b));
         }
         NullTable { n, sorted: cols }
+    }
+
+    /// Simulate the tables for every n in `ns` (in that order), split over up to `threads`
+    /// threads ([`split_sizes`]; one thread on wasm32, where the page spreads the sizes over
+    /// Workers instead). Each table comes from its own stream (seed, "null", n), so the tables
+    /// are the same whatever the split.
+    pub fn simulate_many(benford: &Categorical, ns: &[u64], sims: u32, seed: u64, threads: usize) -> Vec<NullTable> {
+        let threads = if cfg!(target_arch = "wasm32") { 1 } else { threads.clamp(1, ns.len().max(1)) };
+        if threads == 1 {
+            return ns.iter().map(|&n| NullTable::simulate(benford, n, sims, seed)).collect();
+        }
+        let parts = split_sizes(ns, threads);
+        let run = |part: &Vec<u64>| part.iter().map(|&n| NullTable::simulate(benford, n, sims, seed)).collect::<Vec<_>>();
+        let done: Vec<Vec<NullTable>> = std::thread::scope(|sc| {
+            let hs: Vec<_> = parts[1..].iter().map(|part| sc.spawn(move || run(part))).collect();
+            let mut out = vec![run(&parts[0])];
+            out.extend(hs.into_iter().map(|h| h.join().expect("null table thread")));
+            out
+        });
+        let mut by_n: HashMap<u64, NullTable> = done.into_iter().flatten().map(|t| (t.n, t)).collect();
+        ns.iter().map(|n| by_n.remove(n).unwrap_or_else(|| NullTable::simulate(benford, *n, sims, seed))).collect()
+    }
+
+    /// A table from its four sorted columns (mad, chi_square, ks, max_z), e.g. one simulated by
+    /// another Worker. Panics unless the columns have equal length and are ascending.
+    pub fn from_columns(n: u64, cols: [Vec<f64>; 4]) -> NullTable {
+        assert!(cols.iter().all(|c| c.len() == cols[0].len()), "columns of equal length");
+        assert!(cols.iter().all(|c| c.windows(2).all(|w| w[0].total_cmp(&w[1]).is_le())), "columns sorted");
+        NullTable { n, sorted: cols }
+    }
+
+    /// The four sorted columns (mad, chi_square, ks, max_z).
+    pub fn columns(&self) -> &[Vec<f64>; 4] {
+        &self.sorted
     }
 
     pub fn sims(&self) -> usize {
@@ -267,6 +314,32 @@ impl NullTable {
         let k = (k as usize).min(v.len() - 1);
         v[v.len() - 1 - k]
     }
+}
+
+/// Threads used natively to simulate a batch of missing null tables ([`Calibrator::prepare`]).
+pub const TABLE_THREADS: usize = 2;
+
+/// Relative cost of simulating one null table at n: the guide table costs O(n) up to
+/// [`sample::GUIDE_MAX_N`], the binomial chain about as much as the guide at that n; the
+/// statistics about as much as 100 invoices (rough figures from `benches/calibrate.rs`).
+fn table_cost(n: u64) -> u64 {
+    n.min(sample::GUIDE_MAX_N) + 100
+}
+
+/// Split table sizes into `parts` lists of about equal simulation cost (largest first, each to
+/// the least loaded list; ties to the lower list), so any order of `ns` gives the same split.
+pub fn split_sizes(ns: &[u64], parts: usize) -> Vec<Vec<u64>> {
+    let parts = parts.max(1);
+    let mut order: Vec<u64> = ns.to_vec();
+    order.sort_unstable_by(|a, b| table_cost(*b).cmp(&table_cost(*a)).then(b.cmp(a)));
+    let mut out = vec![Vec::new(); parts];
+    let mut load = vec![0u64; parts];
+    for n in order {
+        let i = (0..parts).min_by_key(|&i| (load[i], i)).unwrap_or(0);
+        load[i] += table_cost(n);
+        out[i].push(n);
+    }
+    out
 }
 
 /// The grid point g's sample size: round(10^(g / GRID_PER_DECADE)).
@@ -398,13 +471,14 @@ pub struct Calibrator {
     opts: CalibrationOptions,
     benford: Categorical,
     tables: HashMap<u64, NullTable>,
+    threads: usize,
 }
 
 impl Calibrator {
     pub fn new(opts: CalibrationOptions) -> Calibrator {
         assert!(opts.sims >= 1, "sims >= 1");
         assert!(opts.confidence > 0.0 && opts.confidence < 1.0, "0 < confidence < 1");
-        Calibrator { opts, benford: Categorical::new(&benford::first_two()), tables: HashMap::new() }
+        Calibrator { opts, benford: Categorical::new(&benford::first_two()), tables: HashMap::new(), threads: TABLE_THREADS }
     }
 
     pub fn options(&self) -> &CalibrationOptions {
@@ -424,6 +498,45 @@ impl Calibrator {
     /// Number of cached tables.
     pub fn cached_tables(&self) -> usize {
         self.tables.len()
+    }
+
+    /// Threads for [`Calibrator::prepare`] inside [`Calibrator::ledger`] (default
+    /// [`TABLE_THREADS`]; always 1 on wasm32). Numbers do not depend on it.
+    pub fn set_threads(&mut self, threads: usize) {
+        self.threads = threads.max(1);
+    }
+
+    /// The null-table sizes that calibrating suppliers of sizes `ns` (p-values and critical MAD)
+    /// reads and that are not cached yet, ascending and distinct.
+    pub fn missing_tables(&self, ns: &[u64]) -> Vec<u64> {
+        let mut need: Vec<u64> = ns
+            .iter()
+            .filter(|&&n| n > 0)
+            .flat_map(|&n| {
+                let (a, b, _) = Self::bracket(n);
+                [a, b]
+            })
+            .filter(|m| !self.tables.contains_key(m))
+            .collect();
+        need.sort_unstable();
+        need.dedup();
+        need
+    }
+
+    /// Put a table simulated elsewhere (e.g. by another Worker) in the cache. It must be the
+    /// table of this calibrator's seed and sims at `t.n`; panics on a different number of sims.
+    pub fn insert_table(&mut self, t: NullTable) {
+        assert_eq!(t.sims(), self.opts.sims as usize, "table with this calibrator's sims");
+        self.tables.insert(t.n, t);
+    }
+
+    /// Simulate every missing table for suppliers of sizes `ns` at once, over up to `threads`
+    /// threads. The same tables as lazily one by one: each is seeded by its own n.
+    pub fn prepare(&mut self, ns: &[u64], threads: usize) {
+        let need = self.missing_tables(ns);
+        for t in NullTable::simulate_many(&self.benford, &need, self.opts.sims, self.opts.seed, threads) {
+            self.tables.insert(t.n, t);
+        }
     }
 
     /// The tables and weight used at n: exact (n, n, 0) or neighbours (n0, n1, w in (0, 1)).
@@ -604,6 +717,19 @@ impl Calibrator {
 
     /// Calibrate a whole supplier list with the chosen correction across it (q = 1 - confidence).
     pub fn ledger(&mut self, inputs: &[SupplierInput]) -> LedgerCalibration {
+        // All null tables first, over threads: those of the suppliers' own sizes and the power
+        // checkpoints every curve passes (10^(j/4) up to the first at or above the largest n).
+        let mut ns: Vec<u64> = inputs.iter().map(|s| s.first_two_counts.iter().sum()).collect();
+        let nmax = ns.iter().copied().max().unwrap_or(0);
+        let mut g = GRID_PER_DECADE;
+        while nmax > 0 && grid_n(g) <= self.opts.max_invoices {
+            ns.push(grid_n(g));
+            if grid_n(g) >= nmax {
+                break;
+            }
+            g += GRID_PER_DECADE / POWER_PER_DECADE;
+        }
+        self.prepare(&ns, self.threads);
         let bases: Vec<NullCalibration> = inputs.iter().map(|s| self.null_only(&s.first_two_counts)).collect();
         let ps: Vec<f64> = bases.iter().map(|b| b.mc_p_value).collect();
         let q = self.alpha();

@@ -4,8 +4,11 @@
 //! - **Guide table** (Chen & Asau, "On generating random variates from an empirical
 //!   distribution", AIIE Transactions 6, 1974): the cumulative probabilities are held as u32
 //!   thresholds (so each category probability is exact to 2^-32); each invoice takes 32 random
-//!   bits, one look-up in a 4096-entry table and, for the ~2 % of entries that straddle a
-//!   threshold, a short walk. Two invoices per 64-bit draw. Cost O(n).
+//!   bits, one look-up in a 16,384-entry table (16 KiB, held in L1 cache) and, for the ~0.5 % of
+//!   entries that straddle a threshold (89 of 16,384 for Benford's 90 bins), a short walk. Two
+//!   invoices per 64-bit draw. Cost O(n). The table size changes only speed: the category is
+//!   always the one whose threshold interval holds the 32 bits, so counts are the same for any
+//!   table size.
 //! - **Conditional binomials** (the multinomial factorises into a chain of binomials,
 //!   count_i ~ Bin(n - sum_{j<i} count_j, p_i / sum_{j>=i} p_j)), each binomial drawn with
 //!   inversion (np < 30) or BTPE (Kachitvichyanukul & Schmeiser, "Binomial random variate
@@ -17,8 +20,9 @@
 use crate::rng::DetRng;
 
 pub const MAX_BINS: usize = 128;
-const GUIDE_BITS: u32 = 12;
+const GUIDE_BITS: u32 = 14;
 const GUIDE: usize = 1 << GUIDE_BITS;
+/// Guide entry flag: the entry straddles a threshold (walk from its first category).
 const WALK: u8 = 0x80;
 
 /// Above this n the binomial chain is used (measured with `benches/calibrate.rs` on a loaded
@@ -30,8 +34,9 @@ pub const GUIDE_MAX_N: u64 = 6_000;
 pub struct Categorical {
     k: usize,
     probs: Vec<f64>,
-    /// thr[i] = round(2^32 * (p_0 + ... + p_i)); thr[k-1] = 2^32.
-    thr: Vec<u64>,
+    /// thr[i] = round(2^32 * (p_0 + ... + p_i)); thr[i] = 2^32 for i >= k-1 (padded to 128 so
+    /// that every index a guide entry can produce is in bounds without a check).
+    thr: Box<[u64; MAX_BINS]>,
     guide: Box<[u8; GUIDE]>,
     /// cond[i] = p_i / (p_i + ... + p_{k-1}), for the binomial chain.
     cond: Vec<f64>,
@@ -48,7 +53,7 @@ impl Categorical {
         assert!(total > 0.0, "weights sum to zero");
         let probs: Vec<f64> = weights.iter().map(|w| w / total).collect();
 
-        let mut thr = Vec::with_capacity(k);
+        let mut thr = Box::new([1u64 << 32; MAX_BINS]);
         let mut cum = 0.0f64;
         let full = 4294967296.0f64; // 2^32
         let mut prev = 0u64;
@@ -56,7 +61,7 @@ impl Categorical {
             cum += p;
             let t = if i + 1 == k { 1u64 << 32 } else { libm::round(cum.min(1.0) * full) as u64 };
             let t = t.max(prev).min(1u64 << 32);
-            thr.push(t);
+            thr[i] = t;
             prev = t;
         }
         // Zero-weight categories must never be drawn: their threshold interval is empty
@@ -71,7 +76,7 @@ impl Categorical {
             while thr[j] <= lo {
                 j += 1;
             }
-            // Category j holds lo; the whole bucket is in j when thr[j] >= hi.
+            // Category j holds lo; the whole bucket is in j when thr[j] >= hi, else it is walked.
             *slot = if thr[j] >= hi { j as u8 } else { j as u8 | WALK };
         }
 
@@ -131,32 +136,37 @@ impl Categorical {
         }
     }
 
+    /// The category of the 32-bit uniform u (same answer as a plain search of `thr`).
     #[inline(always)]
-    fn place(guide: &[u8; GUIDE], thr: &[u64], c: &mut [u32; MAX_BINS], u: u32) {
+    fn category(guide: &[u8; GUIDE], thr: &[u64; MAX_BINS], u: u32) -> usize {
         let g = guide[(u >> (32 - GUIDE_BITS)) as usize];
-        let mut j = (g & !WALK) as usize;
-        if g & WALK != 0 {
-            while u as u64 >= thr[j] {
-                j += 1;
-            }
+        if g & WALK == 0 {
+            return g as usize;
         }
-        c[j & (MAX_BINS - 1)] += 1;
+        let mut j = (g & !WALK) as usize;
+        while u as u64 >= thr[j & (MAX_BINS - 1)] {
+            j += 1;
+        }
+        j
     }
 
     fn guided_chunk(&self, rng: &mut DetRng, n: u64, counts: &mut [u64]) {
-        let mut c = [0u32; MAX_BINS];
+        // Two counter arrays, one per half of each 64-bit draw, so that two invoices landing in
+        // the same bin do not wait on each other's increment; summed at the end (same counts).
+        let mut c0 = [0u32; MAX_BINS];
+        let mut c1 = [0u32; MAX_BINS];
         let guide: &[u8; GUIDE] = &self.guide;
-        let thr = &self.thr[..];
+        let thr: &[u64; MAX_BINS] = &self.thr;
         for _ in 0..n / 2 {
             let x = rng.next_u64();
-            Self::place(guide, thr, &mut c, x as u32);
-            Self::place(guide, thr, &mut c, (x >> 32) as u32);
+            c0[Self::category(guide, thr, x as u32) & (MAX_BINS - 1)] += 1;
+            c1[Self::category(guide, thr, (x >> 32) as u32) & (MAX_BINS - 1)] += 1;
         }
         if n % 2 == 1 {
-            Self::place(guide, thr, &mut c, rng.next_u32());
+            c0[Self::category(guide, thr, rng.next_u32()) & (MAX_BINS - 1)] += 1;
         }
         for i in 0..self.k {
-            counts[i] += c[i] as u64;
+            counts[i] += (c0[i] + c1[i]) as u64;
         }
     }
 
@@ -218,6 +228,24 @@ fn binomial_inversion(rng: &mut DetRng, n: u64, r: f64) -> u64 {
     }
 }
 
+/// floor(x), bit for bit as `libm::floor` (including -0.0), inlined: BTPE takes several per
+/// variate and a call into libm's software floor cost more than the rest of its setup.
+/// Exact because every non-integral f64 has |x| < 2^52, where the i64 conversion is exact.
+#[inline(always)]
+fn floor(x: f64) -> f64 {
+    if !(libm::fabs(x) < 4503599627370496.0) {
+        return libm::floor(x); // |x| >= 2^52 (already integral), inf or NaN
+    }
+    let t = x as i64 as f64;
+    if t == x {
+        x
+    } else if t > x {
+        t - 1.0
+    } else {
+        t
+    }
+}
+
 /// log(k!) via libm's lgamma (pure Rust).
 #[inline]
 fn log_fact(k: f64) -> f64 {
@@ -232,8 +260,8 @@ fn binomial_btpe(rng: &mut DetRng, n: u64, r: f64) -> u64 {
     let q = 1.0 - r;
     let nrq = nf * r * q;
     let fm = nf * r + r;
-    let m = libm::floor(fm);
-    let p1 = libm::floor(2.195 * libm::sqrt(nrq) - 4.6 * q) + 0.5;
+    let m = floor(fm);
+    let p1 = floor(2.195 * libm::sqrt(nrq) - 4.6 * q) + 0.5;
     let xm = m + 0.5;
     let xl = xm - p1;
     let xr = xm + p1;
@@ -254,7 +282,7 @@ fn binomial_btpe(rng: &mut DetRng, n: u64, r: f64) -> u64 {
         let y: f64;
         if u <= p1 {
             // triangular region: always accepted
-            return libm::floor(xm - p1 * v + u) as u64;
+            return floor(xm - p1 * v + u) as u64;
         } else if u <= p2 {
             // Step 2: parallelograms
             let x = xl + (u - p1) / c;
@@ -262,17 +290,17 @@ fn binomial_btpe(rng: &mut DetRng, n: u64, r: f64) -> u64 {
             if v > 1.0 {
                 continue;
             }
-            y = libm::floor(x);
+            y = floor(x);
         } else if u <= p3 {
             // Step 3: left exponential tail
-            y = libm::floor(xl + libm::log(v) / lam_l);
+            y = floor(xl + libm::log(v) / lam_l);
             if y < 0.0 {
                 continue;
             }
             v *= (u - p2) * lam_l;
         } else {
             // Step 4: right exponential tail
-            y = libm::floor(xr - libm::log(v) / lam_r);
+            y = floor(xr - libm::log(v) / lam_r);
             if y > nf {
                 continue;
             }
@@ -287,11 +315,11 @@ fn binomial_btpe(rng: &mut DetRng, n: u64, r: f64) -> u64 {
             let mut f = 1.0f64;
             if mi < yi {
                 for i in (mi + 1)..=yi {
-                    f *= a / i as f64 - s;
+                    f *= a / i as i64 as f64 - s;
                 }
             } else if mi > yi {
                 for i in (yi + 1)..=mi {
-                    f /= a / i as f64 - s;
+                    f /= a / i as i64 as f64 - s;
                 }
             }
             if v <= f {
