@@ -32,7 +32,7 @@ pub use date::{civil_from_days, days_from_civil, format_date, parse_date, DateCe
 use crate::amount::Amount;
 use crate::ledger::{fnv1a, supplier_key, ExclusionReason, Invoice, Ledger, Supplier, NO_DATE};
 use columns::Role;
-use scan::{Record, Scan, Scanner};
+use scan::{Record, RecordView, Scan, Scanner};
 use serde::Serialize;
 use sniff::{Enc, SNIFF_LEN};
 use std::collections::HashMap;
@@ -820,34 +820,11 @@ impl Run {
     }
 
     fn process(&mut self, eof: bool) -> Result<(), IntakeError> {
-        while self.pos < self.work.len() {
-            if let Some(p) = &self.preview {
-                if p.len() >= PREVIEW_ROWS {
-                    return Ok(());
-                }
-            }
-            let mut rec = std::mem::take(&mut self.rec);
-            let r = self.scanner.scan(&self.work, self.pos, eof, &mut rec);
-            match r {
-                Scan::Done { next, lines } => {
-                    let line = self.line;
-                    let outcome = self.handle(&rec, line);
-                    if self.preview.is_some() {
-                        self.preview_row(&rec, line, outcome);
-                    }
-                    self.rec = rec;
-                    self.line += lines;
-                    self.pos = next;
-                }
-                Scan::More => {
-                    self.rec = rec;
-                    if self.work.len() - self.pos > MAX_RECORD {
-                        return Err(IntakeError::RecordTooLong { line: self.line });
-                    }
-                    break;
-                }
-            }
-        }
+        let work = std::mem::take(&mut self.work);
+        let (pos, res) = self.process_data(&work, self.pos, eof);
+        self.work = work;
+        self.pos = pos;
+        res?;
         if self.pos > 0 {
             self.work.drain(..self.pos);
             self.pos = 0;
@@ -855,7 +832,41 @@ impl Run {
         Ok(())
     }
 
-    fn is_totals_word(&self, rec: &Record) -> bool {
+    /// Count the complete records of `data` from `pos` on; returns where the first record not
+    /// yet complete starts (or where the preview filled up).
+    fn process_data(&mut self, data: &[u8], mut pos: usize, eof: bool) -> (usize, Result<(), IntakeError>) {
+        let mut rec = std::mem::take(&mut self.rec);
+        let mut res = Ok(());
+        while pos < data.len() {
+            if let Some(p) = &self.preview {
+                if p.len() >= PREVIEW_ROWS {
+                    break;
+                }
+            }
+            let (r, view) = self.scanner.scan_view(data, pos, eof, &mut rec);
+            match r {
+                Scan::Done { next, lines } => {
+                    let line = self.line;
+                    let outcome = self.handle(view, line);
+                    if self.preview.is_some() {
+                        self.preview_row(view, line, outcome);
+                    }
+                    self.line += lines;
+                    pos = next;
+                }
+                Scan::More => {
+                    if data.len() - pos > MAX_RECORD {
+                        res = Err(IntakeError::RecordTooLong { line: self.line });
+                    }
+                    break;
+                }
+            }
+        }
+        self.rec = rec;
+        (pos, res)
+    }
+
+    fn is_totals_word(&self, rec: RecordView) -> bool {
         let m = &self.setup.mapping;
         let Some(first) = rec.fields().map(trim_cell).find(|c| !c.is_empty()) else { return false };
         if first.len() < 3 || first.len() > 60 {
@@ -878,7 +889,7 @@ impl Run {
     }
 
     /// Count one data row. Returns the exclusion reason, None when analysed (or held back).
-    fn handle(&mut self, rec: &Record, line: u64) -> Option<ExclusionReason> {
+    fn handle(&mut self, rec: RecordView, line: u64) -> Option<ExclusionReason> {
         let m = self.setup.mapping.clone();
         let width = rec.width();
         macro_rules! exclude {
@@ -1085,7 +1096,7 @@ impl Run {
         }
     }
 
-    fn preview_row(&mut self, rec: &Record, line: u64, outcome: Option<ExclusionReason>) {
+    fn preview_row(&mut self, rec: RecordView, line: u64, outcome: Option<ExclusionReason>) {
         let m = &self.setup.mapping;
         let cells: Vec<String> = rec.fields().map(|f| String::from_utf8_lossy(f).into_owned()).collect();
         let get = |c: usize| if c < rec.len() { Some(trim_cell(rec.field(c))) } else { None };
