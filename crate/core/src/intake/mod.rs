@@ -936,7 +936,11 @@ impl Run {
         if raw_amount.is_empty() {
             exclude!(ExclusionReason::BlankAmount);
         }
-        let Some((a, hint)) = parse_amount(raw_amount, self.conv) else {
+        let parsed = match self.conv {
+            Some(c) => amount::parse_amount_known(raw_amount, c).map(|a| (a, Hint::Neutral)),
+            None => parse_amount(raw_amount, None),
+        };
+        let Some((a, hint)) = parsed else {
             exclude!(ExclusionReason::UnparseableAmount);
         };
         let mut held = false;
