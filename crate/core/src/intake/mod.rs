@@ -23,6 +23,7 @@
 pub mod amount;
 pub mod columns;
 pub mod date;
+mod intern;
 pub mod scan;
 pub mod sniff;
 
@@ -36,7 +37,6 @@ use scan::{Record, RecordView, Scan, Scanner};
 use serde::Serialize;
 use sniff::{Enc, SNIFF_LEN};
 use std::collections::HashMap;
-use std::hash::{BuildHasherDefault, Hasher};
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
@@ -340,32 +340,6 @@ struct Setup {
     warnings: Vec<String>,
 }
 
-/// A small fast hasher for the raw-spelling map (the multiply-rotate hash used by rustc,
-/// "FxHash"; not DoS-resistant, fine for one user's own file).
-#[derive(Default)]
-struct FxHasher(u64);
-impl Hasher for FxHasher {
-    #[inline]
-    fn write(&mut self, bytes: &[u8]) {
-        let mut h = self.0;
-        let mut c = bytes.chunks_exact(8);
-        for w in &mut c {
-            h = (h.rotate_left(5) ^ u64::from_le_bytes(w.try_into().unwrap())).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
-        }
-        for &b in c.remainder() {
-            h = (h.rotate_left(5) ^ b as u64).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
-        }
-        self.0 = h;
-    }
-    #[inline]
-    fn write_usize(&mut self, i: usize) {
-        self.0 = (self.0.rotate_left(5) ^ i as u64).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
-    }
-    fn finish(&self) -> u64 {
-        self.0
-    }
-}
-type FxMap<K, V> = HashMap<K, V, BuildHasherDefault<FxHasher>>;
 
 struct Run {
     setup: Setup,
@@ -383,10 +357,8 @@ struct Run {
     /// `--date-order ymd` given: only year-first dates (and serials) are read.
     ymd_only: bool,
     ledger: Ledger,
-    raw_map: FxMap<Box<[u8]>, u32>,
+    raw_map: intern::Interner,
     key_map: HashMap<String, u32>,
-    last_raw: Vec<u8>,
-    last_id: u32,
     /// Rows whose amount is ambiguous while the convention is undecided (thousands reading,
     /// signed).
     deferred: Vec<Invoice>,
@@ -722,10 +694,8 @@ impl Run {
             saw_iso: false,
             ymd_only: opts.date_order == Some(DateOrder::Ymd),
             ledger: Ledger::default(),
-            raw_map: FxMap::default(),
+            raw_map: intern::Interner::default(),
             key_map: HashMap::new(),
-            last_raw: Vec::new(),
-            last_id: u32::MAX,
             deferred: Vec::new(),
             date_alts: Vec::new(),
             amb_dec: Vec::new(),
@@ -1020,31 +990,24 @@ impl Run {
             }
         }
         // Supplier id: exact previous spelling, then exact spelling seen before, then key.
-        let id = if name == &self.last_raw[..] && self.last_id != u32::MAX {
-            self.last_id
-        } else {
-            let id = match self.raw_map.get(name) {
-                Some(&id) => id,
-                None => {
-                    let display = decode_name(name, &mut self.recoded_names);
-                    let key = supplier_key(&display);
-                    let id = match self.key_map.get(&key) {
-                        Some(&id) => id,
-                        None => {
-                            let id = self.ledger.suppliers.len() as u32;
-                            self.key_map.insert(key.clone(), id);
-                            self.ledger.suppliers.push(Supplier { name: display.trim().to_string(), key });
-                            id
-                        }
-                    };
-                    self.raw_map.insert(name.into(), id);
-                    id
-                }
-            };
-            self.last_raw.clear();
-            self.last_raw.extend_from_slice(name);
-            self.last_id = id;
-            id
+        // Supplier id: exact spelling seen before, then key.
+        let id = match self.raw_map.get(name) {
+            Some(id) => id,
+            None => {
+                let display = decode_name(name, &mut self.recoded_names);
+                let key = supplier_key(&display);
+                let id = match self.key_map.get(&key) {
+                    Some(&id) => id,
+                    None => {
+                        let id = self.ledger.suppliers.len() as u32;
+                        self.key_map.insert(key.clone(), id);
+                        self.ledger.suppliers.push(Supplier { name: display.trim().to_string(), key });
+                        id
+                    }
+                };
+                self.raw_map.insert(name, id);
+                id
+            }
         };
         let inv = Invoice {
             amount: a,
