@@ -42,8 +42,19 @@ fn is_ws(b: u8) -> bool {
 }
 
 /// Trim ASCII white space and the UTF-8 no-break / narrow no-break / thin spaces at both ends.
-#[inline]
-pub fn trim_cell(mut s: &[u8]) -> &[u8] {
+#[inline(always)]
+pub fn trim_cell(s: &[u8]) -> &[u8] {
+    // Fast path: printable ASCII at both ends (every byte trimmed is white space, CR, LF or
+    // part of a multi-byte space, none of them in 0x21..=0x7E), or an empty cell.
+    match s {
+        [] => s,
+        [0x21..=0x7E, ..] if matches!(s[s.len() - 1], 0x21..=0x7E) => s,
+        _ => trim_cell_slow(s),
+    }
+}
+
+#[inline(never)]
+fn trim_cell_slow(mut s: &[u8]) -> &[u8] {
     loop {
         match s {
             [b, rest @ ..] if is_ws(*b) || *b == b'\r' || *b == b'\n' => s = rest,
@@ -365,6 +376,26 @@ pub fn parse_amount_str(s: &str) -> Option<Amount> {
 
 #[cfg(test)]
 mod tests {
+
+    use super::trim_cell;
+
+    /// trim_cell (with its fast path) against std's `str::trim_matches` on the same set of
+    /// spaces, over every string of up to 4 pieces from an alphabet of spaces and text.
+    #[test]
+    fn trim_cell_agrees_with_std_trim_matches() {
+        let alphabet = [" ", "\t", "\r", "\n", "\u{a0}", "\u{202f}", "\u{2009}", "a", "1", "~", "é", "\u{2003}", ""];
+        let spaces = |c: char| matches!(c, ' ' | '\t' | '\r' | '\n' | '\u{a0}' | '\u{202f}' | '\u{2009}');
+        let n = alphabet.len();
+        for code in 0..n.pow(4) {
+            let mut t = String::new();
+            let mut c = code;
+            for _ in 0..4 {
+                t.push_str(alphabet[c % n]);
+                c /= n;
+            }
+            assert_eq!(trim_cell(t.as_bytes()), t.trim_matches(spaces).as_bytes(), "{t:?}");
+        }
+    }
     use super::*;
     use DecimalConvention::*;
 

@@ -65,7 +65,18 @@ impl<'a> RecordView<'a> {
         &self.buf[s..e]
     }
     /// Number of fields after dropping trailing fields that are empty or white space.
+    #[inline]
     pub fn width(&self) -> usize {
+        let w = self.len();
+        // Fast path: a last field starting with printable ASCII is not blank (trim_cell only
+        // drops ASCII white space and the UTF-8 no-break and thin spaces, all other bytes).
+        if w > 0 && matches!(self.field(w - 1).first(), Some(0x21..=0x7E)) {
+            return w;
+        }
+        self.width_slow()
+    }
+    #[cold]
+    fn width_slow(&self) -> usize {
         let mut w = self.len();
         while w > 0 && super::amount::trim_cell(self.field(w - 1)).is_empty() {
             w -= 1;
