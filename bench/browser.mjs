@@ -4,8 +4,18 @@
 // resident memory of the tab's renderer process (VmHWM; it holds the Worker, its wasm linear
 // memory and the JS heaps), found among this process's own descendants only.
 // Usage: node bench/browser.mjs FILE...
+//
+// Intake-only mode: node bench/browser.mjs --intake-only [--runs N] FILE...
+// For each file, times intake alone natively (examples/intake_speed: the file in memory, fed in
+// 1 MiB chunks) and in Chromium (a Worker started from the page's own glue, worker and wasm
+// blocks, reading the File through its 1 MiB File.slice chunks into the core's intake: no
+// fingerprint, digit tests or calibration), best of N runs each (default 3), and prints MB/s
+// side by side with the Chromium/native ratio; in Chromium both with the next slice read ahead
+// (as the page does) and with slices read in turn. Build first: bash scripts/build-web.sh &&
+// cargo build --release -p digitdrift-core --example intake_speed
 import { launch, openPage } from '../tests/e2e/browser.mjs';
 import { statSync, readFileSync, readdirSync } from 'node:fs';
+import { execFileSync } from 'node:child_process';
 
 function descendants(root) {
   const kids = new Map();
@@ -36,8 +46,76 @@ function rendererPeakMb() {
   return best;
 }
 
+async function intakeOnly(files, runs) {
+  const nativeBin = process.env.INTAKE_SPEED_BIN || `${process.env.CARGO_TARGET_DIR || 'target'}/release/examples/intake_speed`;
+  const browser = await launch();
+  const { page, context } = await openPage(browser);
+  await page.evaluate(() => {
+    const input = document.createElement('input');
+    input.type = 'file';
+    input.id = 'bench-intake-file';
+    input.hidden = true;
+    document.body.append(input);
+  });
+  for (const file of files) {
+    const native = JSON.parse(execFileSync(nativeBin, [file, String(runs)], { encoding: 'utf8' }).trim());
+    await page.setInputFiles('#bench-intake-file', file);
+    const web = await page.evaluate(async (runs) => {
+      const text = (id) => document.getElementById(id).textContent;
+      const bin = atob(text('dd-wasm').trim());
+      const wasm = new Uint8Array(bin.length);
+      for (let i = 0; i < bin.length; i++) wasm[i] = bin.charCodeAt(i);
+      const worker = new Worker(URL.createObjectURL(new Blob([text('dd-glue') + '\n' + text('dd-worker')], { type: 'text/javascript' })));
+      const next = () => new Promise((resolve) => { worker.onmessage = (ev) => { if (!ev.data.progress) resolve(ev.data); }; });
+      let msg = next();
+      worker.postMessage({ cmd: 'init', wasm: wasm.buffer }, [wasm.buffer]);
+      await msg;
+      const file = document.getElementById('bench-intake-file').files[0];
+      const out = { ahead: [], inTurn: [] };
+      for (let r = 0; r < runs; r++) {
+        for (const readAhead of [true, false]) {
+          msg = next();
+          worker.postMessage({ cmd: 'benchIntake', id: r + 1, file, readAhead });
+          const m = await msg;
+          if (!m.ok) throw new Error(m.error);
+          out[readAhead ? 'ahead' : 'inTurn'].push(m.value);
+        }
+      }
+      worker.terminate();
+      return out;
+    }, runs);
+    const mb = statSync(file).size / 1e6;
+    const pick = (runs) => runs.reduce((a, b) => (b.ms < a.ms ? b : a));
+    const best = pick(web.ahead);
+    const inTurn = pick(web.inTurn);
+    const rate = (ms) => mb / (ms / 1000);
+    const chromium_mb_per_s = rate(best.ms);
+    const secs = (runs) => runs.map((w) => (w.ms / 1000).toFixed(3)).join(' ');
+    console.log(`intake only, ${file}: ${mb.toFixed(1)} MB, ${native.rows_read} rows read (${native.rows_analysed} analysed); best of ${runs}`);
+    console.log(`  native                           ${native.native_mb_per_s.toFixed(1).padStart(7)} MB/s  (${native.native_seconds.toFixed(3)} s)`);
+    console.log(`  chromium, next slice read ahead  ${chromium_mb_per_s.toFixed(1).padStart(7)} MB/s  (${(best.ms / 1000).toFixed(3)} s wall in the Worker, ${(best.feedMs / 1000).toFixed(3)} s of it in intake; runs ${secs(web.ahead)} s)`);
+    console.log(`  chromium, slices read in turn    ${rate(inTurn.ms).toFixed(1).padStart(7)} MB/s  (${(inTurn.ms / 1000).toFixed(3)} s wall in the Worker, ${(inTurn.feedMs / 1000).toFixed(3)} s of it in intake; runs ${secs(web.inTurn)} s)`);
+    console.log(`  chromium (read ahead)/native throughput ratio ${(chromium_mb_per_s / native.native_mb_per_s).toFixed(2)}; read ahead/in turn ${(inTurn.ms / best.ms).toFixed(2)}`);
+    for (const w of [best, inTurn]) {
+      if (w.read !== native.rows_read || w.analysed !== native.rows_analysed) throw new Error(`row counts differ: chromium ${w.read}/${w.analysed}, native ${native.rows_read}/${native.rows_analysed}`);
+    }
+    console.log(JSON.stringify({ file, mb, rows_read: native.rows_read, rows_analysed: native.rows_analysed, native_mb_per_s: native.native_mb_per_s, chromium_mb_per_s, chromium_in_turn_mb_per_s: rate(inTurn.ms), chromium_intake_only_mb_per_s: rate(best.feedMs), ratio: chromium_mb_per_s / native.native_mb_per_s }));
+  }
+  await context.close();
+  await browser.close();
+}
+
+const argv = process.argv.slice(2);
+if (argv[0] === '--intake-only') {
+  let runs = 3;
+  let rest = argv.slice(1);
+  if (rest[0] === '--runs') { runs = Number(rest[1]); rest = rest.slice(2); }
+  await intakeOnly(rest, runs);
+  process.exit(0);
+}
+
 const browser = await launch();
-for (const file of process.argv.slice(2)) {
+for (const file of argv) {
   const { page, context } = await openPage(browser);
   await page.setInputFiles('#file', file);
   await page.waitForSelector('#map-go', { timeout: 600_000 });

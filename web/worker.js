@@ -19,16 +19,37 @@ async function demoBlob(b64) {
   return new Blob(parts, { type: 'text/csv' });
 }
 
+// The blob's 1 MiB slices in order; the next slice is already being read while the caller
+// works on the current one (at most two slices in memory).
+async function* slices(blob) {
+  const read = (at) => blob.slice(at, Math.min(blob.size, at + CHUNK)).arrayBuffer();
+  let pending = blob.size > 0 ? read(0) : null;
+  for (let at = 0; at < blob.size;) {
+    const buf = new Uint8Array(await pending);
+    at += buf.length;
+    pending = at < blob.size ? read(at) : null;
+    yield { buf, end: at };
+  }
+}
+
+// The same slices read one after the other (no read-ahead): kept for the benchmark's
+// side-by-side figure only.
+async function* slicesInTurn(blob) {
+  for (let at = 0; at < blob.size;) {
+    const buf = new Uint8Array(await blob.slice(at, Math.min(blob.size, at + CHUNK)).arrayBuffer());
+    at += buf.length;
+    yield { buf, end: at };
+  }
+}
+
 async function openLedger(id, blob, name, options, settings) {
   cancelled = false;
   session = new wasm_bindgen.Session(options || {});
   const total = blob.size;
   let done = 0;
   const t0 = performance.now();
-  while (done < total) {
+  for await (const { buf, end } of slices(blob)) {
     if (cancelled) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
-    const end = Math.min(total, done + CHUNK);
-    const buf = new Uint8Array(await blob.slice(done, end).arrayBuffer());
     session.feed(buf);
     done = end;
     post({ progress: true, id, done, total, rows: session.rowsSoFar() });
@@ -94,6 +115,23 @@ const handlers = {
   async trial({ id, settings }) { return runTrial(id, settings); },
   async detail({ id, supplier }) { post({ id, ok: true, value: session.supplierDetail(supplier) }); },
   async members({ id, supplier, test, bin }) { post({ id, ok: true, value: session.binMembers(supplier, test, bin) }); },
+  // Benchmark only (bench/browser.mjs --intake-only): intake alone through the same 1 MiB
+  // File.slice chunks as openLedger; no fingerprint, digit tests or calibration.
+  async benchIntake({ id, file, readAhead }) {
+    const t0 = performance.now();
+    const it = new wasm_bindgen.BenchIntake();
+    let feedMs = 0;
+    for await (const { buf } of (readAhead ? slices : slicesInTurn)(file)) {
+      const f0 = performance.now();
+      it.feed(buf);
+      feedMs += performance.now() - f0;
+    }
+    const f0 = performance.now();
+    const [read, analysed] = it.finish();
+    feedMs += performance.now() - f0;
+    it.free();
+    post({ id, ok: true, value: { ms: performance.now() - t0, feedMs, read, analysed } });
+  },
   async invoicesAt({ id, supplier, indices }) { post({ id, ok: true, value: session.invoicesAt(supplier, new Uint32Array(indices)) }); },
 };
 

@@ -42,8 +42,19 @@ fn is_ws(b: u8) -> bool {
 }
 
 /// Trim ASCII white space and the UTF-8 no-break / narrow no-break / thin spaces at both ends.
-#[inline]
-pub fn trim_cell(mut s: &[u8]) -> &[u8] {
+#[inline(always)]
+pub fn trim_cell(s: &[u8]) -> &[u8] {
+    // Fast path: printable ASCII at both ends (every byte trimmed is white space, CR, LF or
+    // part of a multi-byte space, none of them in 0x21..=0x7E), or an empty cell.
+    match s {
+        [] => s,
+        [0x21..=0x7E, ..] if matches!(s[s.len() - 1], 0x21..=0x7E) => s,
+        _ => trim_cell_slow(s),
+    }
+}
+
+#[inline(never)]
+fn trim_cell_slow(mut s: &[u8]) -> &[u8] {
     loop {
         match s {
             [b, rest @ ..] if is_ws(*b) || *b == b'\r' || *b == b'\n' => s = rest,
@@ -295,6 +306,68 @@ fn parse_core(s: &[u8], neg: bool, conv: Option<DecimalConvention>) -> Option<(A
     Some((a, hint))
 }
 
+/// [`parse_amount`] for a column whose decimal convention is decided, returning the amount
+/// only (the hint no longer matters). Plain cells (digits, grouping marks, one decimal mark,
+/// at most 18 bytes) are read here in one pass; anything else goes to the general parser,
+/// so the reading is always exactly that of `parse_amount(cell, Some(conv))`.
+#[inline]
+pub fn parse_amount_known(cell: &[u8], conv: DecimalConvention) -> Option<Amount> {
+    let s = trim_cell(cell);
+    let n = s.len();
+    if (1..=18).contains(&n) && s[0].is_ascii_digit() && s[n - 1].is_ascii_digit() {
+        let (dec, grp) = match conv {
+            DecimalConvention::Point => (b'.', b','),
+            DecimalConvention::Comma => (b',', b'.'),
+        };
+        // At most 18 digits: the value fits in an i64.
+        let mut value: u64 = 0;
+        let mut run = 0u32;
+        let mut groups = 0u32;
+        let mut i = 0;
+        let mut plain = true;
+        let mut frac = 0u32;
+        while i < n {
+            let b = s[i];
+            let d = b.wrapping_sub(b'0');
+            if d < 10 {
+                value = value * 10 + d as u64;
+                run += 1;
+            } else if b == grp {
+                if (groups == 0 && !(1..=3).contains(&run)) || (groups > 0 && run != 3) {
+                    plain = false;
+                    break;
+                }
+                groups += 1;
+                run = 0;
+            } else if b == dec {
+                if groups > 0 && run != 3 {
+                    plain = false;
+                    break;
+                }
+                for &b in &s[i + 1..] {
+                    let d = b.wrapping_sub(b'0');
+                    if d >= 10 {
+                        plain = false;
+                        break;
+                    }
+                    value = value * 10 + d as u64;
+                }
+                frac = (n - i - 1) as u32;
+                run = 3; // the grouping is checked already
+                break;
+            } else {
+                plain = false;
+                break;
+            }
+            i += 1;
+        }
+        if plain && (groups == 0 || run == 3) {
+            return Amount::from_scaled(value as i64, frac);
+        }
+    }
+    parse_amount(cell, Some(conv)).map(|(a, _)| a)
+}
+
 /// General parser on text with the convention decided by the text itself; an ambiguous
 /// `1,234` is read with the separator as thousands grouping.
 pub fn parse_amount_str(s: &str) -> Option<Amount> {
@@ -303,11 +376,64 @@ pub fn parse_amount_str(s: &str) -> Option<Amount> {
 
 #[cfg(test)]
 mod tests {
+
+    use super::trim_cell;
+
+    /// trim_cell (with its fast path) against std's `str::trim_matches` on the same set of
+    /// spaces, over every string of up to 4 pieces from an alphabet of spaces and text.
+    #[test]
+    fn trim_cell_agrees_with_std_trim_matches() {
+        let alphabet = [" ", "\t", "\r", "\n", "\u{a0}", "\u{202f}", "\u{2009}", "a", "1", "~", "é", "\u{2003}", ""];
+        let spaces = |c: char| matches!(c, ' ' | '\t' | '\r' | '\n' | '\u{a0}' | '\u{202f}' | '\u{2009}');
+        let n = alphabet.len();
+        for code in 0..n.pow(4) {
+            let mut t = String::new();
+            let mut c = code;
+            for _ in 0..4 {
+                t.push_str(alphabet[c % n]);
+                c /= n;
+            }
+            assert_eq!(trim_cell(t.as_bytes()), t.trim_matches(spaces).as_bytes(), "{t:?}");
+        }
+    }
     use super::*;
     use DecimalConvention::*;
 
     fn p(s: &str, c: Option<DecimalConvention>) -> Option<String> {
         parse_amount(s.as_bytes(), c).map(|(a, _)| a.to_string())
+    }
+
+    /// The fast path reads every cell exactly as the general parser does: all strings of up
+    /// to 7 bytes over digits, both marks and a space, and random longer ones.
+    #[test]
+    fn known_convention_fast_path_agrees() {
+        let alpha = b"0159.,- ";
+        let mut cell = Vec::new();
+        for len in 1..=7u32 {
+            for code in 0..(alpha.len() as u64).pow(len) {
+                cell.clear();
+                let mut c = code;
+                for _ in 0..len {
+                    cell.push(alpha[(c % alpha.len() as u64) as usize]);
+                    c /= alpha.len() as u64;
+                }
+                for conv in [Point, Comma] {
+                    assert_eq!(parse_amount_known(&cell, conv), parse_amount(&cell, Some(conv)).map(|x| x.0), "{:?} {conv:?}", String::from_utf8_lossy(&cell));
+                }
+            }
+        }
+        let mut rng = crate::rng::DetRng::seed_from_u64(7);
+        for _ in 0..200_000 {
+            let len = 8 + (rng.next_u64() % 16) as usize;
+            cell.clear();
+            for _ in 0..len {
+                let r = rng.next_u64() % 16;
+                cell.push(if r < 10 { b'0' + r as u8 } else { b".,.,9 "[(r - 10) as usize] });
+            }
+            for conv in [Point, Comma] {
+                assert_eq!(parse_amount_known(&cell, conv), parse_amount(&cell, Some(conv)).map(|x| x.0), "{:?} {conv:?}", String::from_utf8_lossy(&cell));
+            }
+        }
     }
 
     #[test]

@@ -103,17 +103,18 @@ pub enum DateCell {
 }
 
 /// Read a date cell. `order` is the column's day/month order when known. None: not a date.
+#[inline]
 pub fn parse_date(cell: &[u8], order: Option<DateOrder>) -> Option<DateCell> {
-    // Fast path for the two commonest shapes, `yyyy-mm-dd` and `dd.mm.yyyy`.
-    if cell.len() == 10 {
-        let c = cell;
+    // Fast path (inlined into the row loop) for the two commonest shapes, `yyyy-mm-dd` and
+    // `dd.mm.yyyy`; everything else in `parse_date_general`.
+    if let Ok(c) = <&[u8; 10]>::try_from(cell) {
         let dg = |i: usize| c[i].wrapping_sub(b'0') as u32;
-        let all = |idx: &[usize]| idx.iter().all(|&i| c[i].is_ascii_digit());
-        if c[4] == b'-' && c[7] == b'-' && all(&[0, 1, 2, 3, 5, 6, 8, 9]) {
+        let all = |idx: [usize; 8]| idx.iter().fold(true, |ok, &i| ok & (dg(i) < 10));
+        if c[4] == b'-' && c[7] == b'-' && all([0, 1, 2, 3, 5, 6, 8, 9]) {
             let y = (dg(0) * 1000 + dg(1) * 100 + dg(2) * 10 + dg(3)) as i32;
             return valid(y, dg(5) * 10 + dg(6), dg(8) * 10 + dg(9)).map(|days| DateCell::Fixed { days, hint: Some(DateOrder::Ymd) });
         }
-        if c[2] == b'.' && c[5] == b'.' && order != Some(DateOrder::Mdy) && all(&[0, 1, 3, 4, 6, 7, 8, 9]) {
+        if c[2] == b'.' && c[5] == b'.' && order != Some(DateOrder::Mdy) && all([0, 1, 3, 4, 6, 7, 8, 9]) {
             let y = (dg(6) * 1000 + dg(7) * 100 + dg(8) * 10 + dg(9)) as i32;
             let (d, m) = (dg(0) * 10 + dg(1), dg(3) * 10 + dg(4));
             if let Some(days) = valid(y, m, d) {
@@ -121,6 +122,11 @@ pub fn parse_date(cell: &[u8], order: Option<DateOrder>) -> Option<DateCell> {
             }
         }
     }
+    parse_date_general(cell, order)
+}
+
+#[inline(never)]
+fn parse_date_general(cell: &[u8], order: Option<DateOrder>) -> Option<DateCell> {
     let s = super::amount::trim_cell(cell);
     // Drop a time part: after 'T' or a space following the date.
     let end = s.iter().position(|&b| b == b' ' || b == b'T').unwrap_or(s.len());

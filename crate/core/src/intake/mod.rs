@@ -23,6 +23,7 @@
 pub mod amount;
 pub mod columns;
 pub mod date;
+mod intern;
 pub mod scan;
 pub mod sniff;
 
@@ -32,11 +33,10 @@ pub use date::{civil_from_days, days_from_civil, format_date, parse_date, DateCe
 use crate::amount::Amount;
 use crate::ledger::{fnv1a, supplier_key, ExclusionReason, Invoice, Ledger, Supplier, NO_DATE};
 use columns::Role;
-use scan::{Record, Scan, Scanner};
+use scan::{Record, RecordView, Scan, Scanner};
 use serde::Serialize;
 use sniff::{Enc, SNIFF_LEN};
 use std::collections::HashMap;
-use std::hash::{BuildHasherDefault, Hasher};
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize)]
 #[serde(rename_all = "snake_case")]
@@ -340,32 +340,6 @@ struct Setup {
     warnings: Vec<String>,
 }
 
-/// A small fast hasher for the raw-spelling map (the multiply-rotate hash used by rustc,
-/// "FxHash"; not DoS-resistant, fine for one user's own file).
-#[derive(Default)]
-struct FxHasher(u64);
-impl Hasher for FxHasher {
-    #[inline]
-    fn write(&mut self, bytes: &[u8]) {
-        let mut h = self.0;
-        let mut c = bytes.chunks_exact(8);
-        for w in &mut c {
-            h = (h.rotate_left(5) ^ u64::from_le_bytes(w.try_into().unwrap())).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
-        }
-        for &b in c.remainder() {
-            h = (h.rotate_left(5) ^ b as u64).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
-        }
-        self.0 = h;
-    }
-    #[inline]
-    fn write_usize(&mut self, i: usize) {
-        self.0 = (self.0.rotate_left(5) ^ i as u64).wrapping_mul(0x51_7c_c1_b7_27_22_0a_95);
-    }
-    fn finish(&self) -> u64 {
-        self.0
-    }
-}
-type FxMap<K, V> = HashMap<K, V, BuildHasherDefault<FxHasher>>;
 
 struct Run {
     setup: Setup,
@@ -383,10 +357,8 @@ struct Run {
     /// `--date-order ymd` given: only year-first dates (and serials) are read.
     ymd_only: bool,
     ledger: Ledger,
-    raw_map: FxMap<Box<[u8]>, u32>,
+    raw_map: intern::Interner,
     key_map: HashMap<String, u32>,
-    last_raw: Vec<u8>,
-    last_id: u32,
     /// Rows whose amount is ambiguous while the convention is undecided (thousands reading,
     /// signed).
     deferred: Vec<Invoice>,
@@ -722,10 +694,8 @@ impl Run {
             saw_iso: false,
             ymd_only: opts.date_order == Some(DateOrder::Ymd),
             ledger: Ledger::default(),
-            raw_map: FxMap::default(),
+            raw_map: intern::Interner::default(),
             key_map: HashMap::new(),
-            last_raw: Vec::new(),
-            last_id: u32::MAX,
             deferred: Vec::new(),
             date_alts: Vec::new(),
             amb_dec: Vec::new(),
@@ -753,7 +723,7 @@ impl Run {
         if opts.decimal.is_none() {
             run.sniff_conventions(eof);
         }
-        run.process(eof)?;
+        run.process(eof, true)?;
         Ok(run)
     }
 
@@ -815,39 +785,41 @@ impl Run {
     }
 
     fn push(&mut self, chunk: &[u8], eof: bool) -> Result<(), IntakeError> {
-        self.decode(chunk, eof);
-        self.process(eof)
+        if self.decoder.is_some() || self.preview.is_some() {
+            self.decode(chunk, eof);
+            return self.process(eof, true);
+        }
+        // UTF-8: records are read in place in the chunk; only the record left unfinished at
+        // its end is copied (into `work`). A record left over from the previous chunk is
+        // completed first, taking the chunk up to the next line break, then twice as much
+        // each time while it is still open (a long quoted field stays linear).
+        let mut chunk = chunk;
+        while self.pos < self.work.len() {
+            if chunk.is_empty() {
+                return self.process(eof, true);
+            }
+            let open = self.work.len() - self.pos;
+            let nl = chunk.iter().position(|&b| b == b'\n').map_or(chunk.len(), |k| k + 1);
+            let take = nl.max(open.min(chunk.len()));
+            self.work.extend_from_slice(&chunk[..take]);
+            chunk = &chunk[take..];
+            // The length limit is checked once the whole chunk is in, as if fed at once.
+            self.process(eof && chunk.is_empty(), chunk.is_empty())?;
+        }
+        self.work.clear();
+        self.pos = 0;
+        let (pos, res) = self.process_data(chunk, 0, eof, true);
+        res?;
+        self.work.extend_from_slice(&chunk[pos..]);
+        Ok(())
     }
 
-    fn process(&mut self, eof: bool) -> Result<(), IntakeError> {
-        while self.pos < self.work.len() {
-            if let Some(p) = &self.preview {
-                if p.len() >= PREVIEW_ROWS {
-                    return Ok(());
-                }
-            }
-            let mut rec = std::mem::take(&mut self.rec);
-            let r = self.scanner.scan(&self.work, self.pos, eof, &mut rec);
-            match r {
-                Scan::Done { next, lines } => {
-                    let line = self.line;
-                    let outcome = self.handle(&rec, line);
-                    if self.preview.is_some() {
-                        self.preview_row(&rec, line, outcome);
-                    }
-                    self.rec = rec;
-                    self.line += lines;
-                    self.pos = next;
-                }
-                Scan::More => {
-                    self.rec = rec;
-                    if self.work.len() - self.pos > MAX_RECORD {
-                        return Err(IntakeError::RecordTooLong { line: self.line });
-                    }
-                    break;
-                }
-            }
-        }
+    fn process(&mut self, eof: bool, check_len: bool) -> Result<(), IntakeError> {
+        let work = std::mem::take(&mut self.work);
+        let (pos, res) = self.process_data(&work, self.pos, eof, check_len);
+        self.work = work;
+        self.pos = pos;
+        res?;
         if self.pos > 0 {
             self.work.drain(..self.pos);
             self.pos = 0;
@@ -855,7 +827,41 @@ impl Run {
         Ok(())
     }
 
-    fn is_totals_word(&self, rec: &Record) -> bool {
+    /// Count the complete records of `data` from `pos` on; returns where the first record not
+    /// yet complete starts (or where the preview filled up).
+    fn process_data(&mut self, data: &[u8], mut pos: usize, eof: bool, check_len: bool) -> (usize, Result<(), IntakeError>) {
+        let mut rec = std::mem::take(&mut self.rec);
+        let mut res = Ok(());
+        while pos < data.len() {
+            if let Some(p) = &self.preview {
+                if p.len() >= PREVIEW_ROWS {
+                    break;
+                }
+            }
+            let (r, view) = self.scanner.scan_view(data, pos, eof, &mut rec);
+            match r {
+                Scan::Done { next, lines } => {
+                    let line = self.line;
+                    let outcome = self.handle(view, line);
+                    if self.preview.is_some() {
+                        self.preview_row(view, line, outcome);
+                    }
+                    self.line += lines;
+                    pos = next;
+                }
+                Scan::More => {
+                    if check_len && data.len() - pos > MAX_RECORD {
+                        res = Err(IntakeError::RecordTooLong { line: self.line });
+                    }
+                    break;
+                }
+            }
+        }
+        self.rec = rec;
+        (pos, res)
+    }
+
+    fn is_totals_word(&self, rec: RecordView) -> bool {
         let m = &self.setup.mapping;
         let Some(first) = rec.fields().map(trim_cell).find(|c| !c.is_empty()) else { return false };
         if first.len() < 3 || first.len() > 60 {
@@ -878,7 +884,7 @@ impl Run {
     }
 
     /// Count one data row. Returns the exclusion reason, None when analysed (or held back).
-    fn handle(&mut self, rec: &Record, line: u64) -> Option<ExclusionReason> {
+    fn handle(&mut self, rec: RecordView, line: u64) -> Option<ExclusionReason> {
         let m = self.setup.mapping.clone();
         let width = rec.width();
         macro_rules! exclude {
@@ -925,7 +931,11 @@ impl Run {
         if raw_amount.is_empty() {
             exclude!(ExclusionReason::BlankAmount);
         }
-        let Some((a, hint)) = parse_amount(raw_amount, self.conv) else {
+        let parsed = match self.conv {
+            Some(c) => amount::parse_amount_known(raw_amount, c).map(|a| (a, Hint::Neutral)),
+            None => parse_amount(raw_amount, None),
+        };
+        let Some((a, hint)) = parsed else {
             exclude!(ExclusionReason::UnparseableAmount);
         };
         let mut held = false;
@@ -980,31 +990,24 @@ impl Run {
             }
         }
         // Supplier id: exact previous spelling, then exact spelling seen before, then key.
-        let id = if name == &self.last_raw[..] && self.last_id != u32::MAX {
-            self.last_id
-        } else {
-            let id = match self.raw_map.get(name) {
-                Some(&id) => id,
-                None => {
-                    let display = decode_name(name, &mut self.recoded_names);
-                    let key = supplier_key(&display);
-                    let id = match self.key_map.get(&key) {
-                        Some(&id) => id,
-                        None => {
-                            let id = self.ledger.suppliers.len() as u32;
-                            self.key_map.insert(key.clone(), id);
-                            self.ledger.suppliers.push(Supplier { name: display.trim().to_string(), key });
-                            id
-                        }
-                    };
-                    self.raw_map.insert(name.into(), id);
-                    id
-                }
-            };
-            self.last_raw.clear();
-            self.last_raw.extend_from_slice(name);
-            self.last_id = id;
-            id
+        // Supplier id: exact spelling seen before, then key.
+        let id = match self.raw_map.get(name) {
+            Some(id) => id,
+            None => {
+                let display = decode_name(name, &mut self.recoded_names);
+                let key = supplier_key(&display);
+                let id = match self.key_map.get(&key) {
+                    Some(&id) => id,
+                    None => {
+                        let id = self.ledger.suppliers.len() as u32;
+                        self.key_map.insert(key.clone(), id);
+                        self.ledger.suppliers.push(Supplier { name: display.trim().to_string(), key });
+                        id
+                    }
+                };
+                self.raw_map.insert(name, id);
+                id
+            }
         };
         let inv = Invoice {
             amount: a,
@@ -1085,7 +1088,7 @@ impl Run {
         }
     }
 
-    fn preview_row(&mut self, rec: &Record, line: u64, outcome: Option<ExclusionReason>) {
+    fn preview_row(&mut self, rec: RecordView, line: u64, outcome: Option<ExclusionReason>) {
         let m = &self.setup.mapping;
         let cells: Vec<String> = rec.fields().map(|f| String::from_utf8_lossy(f).into_owned()).collect();
         let get = |c: usize| if c < rec.len() { Some(trim_cell(rec.field(c))) } else { None };
@@ -1186,6 +1189,42 @@ mod tests {
         assert_eq!(days_from_civil(1970, 1, 1), 0);
         assert_eq!(days_from_civil(2000, 3, 1), 11017);
         assert_eq!(civil_from_days(11017), (2000, 3, 1));
+    }
+
+    /// Streaming in place: a record left open at a chunk's end (here a quoted field with line
+    /// breaks, 600 KiB long) is read the same whatever the chunk sizes; a quote never closed is
+    /// reported at the line where its record starts, whatever the chunk sizes.
+    #[test]
+    fn long_records_across_chunks() {
+        let mut t = String::from("Supplier,Note,Amount\n");
+        for i in 0..3000 {
+            t.push_str(&format!("S{},x,{}.50\n", i % 7, 10 + i));
+        }
+        t.push_str("S1,\"");
+        for i in 0..40_000 {
+            t.push_str(&format!("line {i}\n"));
+        }
+        t.push_str("\",12.50\nS2,y,13.50\n");
+        let closed = t.clone();
+        t.push_str("S3,\"never closed\n");
+        for i in 0..150_000 {
+            t.push_str(&format!("more {i}\n"));
+        }
+        let feed = |b: &[u8], step: usize| -> Result<String, IntakeError> {
+            let mut it = Intake::new(IntakeOptions::default());
+            for c in b.chunks(step) {
+                it.feed(c)?;
+            }
+            let r = it.finish()?;
+            Ok(format!("{:?} {:?}", r.ledger.accounting.read, r.ledger.invoices))
+        };
+        let whole = feed(closed.as_bytes(), usize::MAX).unwrap();
+        assert!(whole.starts_with("3002 "), "{}", &whole[..20]);
+        for step in [1 << 20, 65_536, 4093, 777] {
+            assert_eq!(feed(closed.as_bytes(), step).unwrap(), whole, "{step}");
+            assert_eq!(feed(t.as_bytes(), step).unwrap_err(), IntakeError::RecordTooLong { line: 40_000 + 3002 + 2 }, "{step}");
+        }
+        assert_eq!(feed(t.as_bytes(), usize::MAX).unwrap_err(), IntakeError::RecordTooLong { line: 43_004 });
     }
 
     #[test]

@@ -42,10 +42,70 @@ impl Record {
     }
 }
 
+/// A record's fields without a copy: `buf` is either the scanned data from the record's
+/// start (a record without quotes) or the [`Record`]'s own buffer (a quoted field was met).
+#[derive(Clone, Copy)]
+pub struct RecordView<'a> {
+    pub buf: &'a [u8],
+    pub spans: &'a [(usize, usize)],
+}
+
+impl<'a> RecordView<'a> {
+    #[inline]
+    pub fn len(&self) -> usize {
+        self.spans.len()
+    }
+    #[inline]
+    pub fn is_empty(&self) -> bool {
+        self.spans.is_empty()
+    }
+    #[inline]
+    pub fn field(&self, i: usize) -> &'a [u8] {
+        let (s, e) = self.spans[i];
+        &self.buf[s..e]
+    }
+    /// Number of fields after dropping trailing fields that are empty or white space.
+    #[inline]
+    pub fn width(&self) -> usize {
+        let w = self.len();
+        // Fast path: a last field starting with printable ASCII is not blank (trim_cell only
+        // drops ASCII white space and the UTF-8 no-break and thin spaces, all other bytes).
+        if w > 0 && matches!(self.field(w - 1).first(), Some(0x21..=0x7E)) {
+            return w;
+        }
+        self.width_slow()
+    }
+    #[cold]
+    fn width_slow(&self) -> usize {
+        let mut w = self.len();
+        while w > 0 && super::amount::trim_cell(self.field(w - 1)).is_empty() {
+            w -= 1;
+        }
+        w
+    }
+    pub fn fields(&self) -> impl Iterator<Item = &'a [u8]> + 'a {
+        let v = *self;
+        (0..v.len()).map(move |i| v.field(i))
+    }
+}
+
 /// Bytes that end an unquoted run: the delimiter, CR, LF.
 pub struct Scanner {
     special: [bool; 256],
     pub delim: u8,
+    /// The delimiter repeated in every byte (for the word-at-a-time search).
+    delim8: u64,
+}
+
+const ONES: u64 = 0x0101_0101_0101_0101;
+const HIGHS: u64 = 0x8080_8080_8080_8080;
+
+/// High bit set in the lowest byte of `v` that is zero (bits above it may be set spuriously,
+/// which the callers ignore by taking the lowest set bit). The classic "has zero byte" test
+/// (Alan Mycroft's; Sean Anderson, "Bit Twiddling Hacks", Stanford).
+#[inline(always)]
+fn zero_bytes(v: u64) -> u64 {
+    v.wrapping_sub(ONES) & !v & HIGHS
 }
 
 /// Outcome of scanning one record.
@@ -74,12 +134,47 @@ impl Scanner {
         special[delim as usize] = true;
         special[b'\n' as usize] = true;
         special[b'\r' as usize] = true;
-        Scanner { special, delim }
+        Scanner { special, delim, delim8: ONES.wrapping_mul(delim as u64) }
+    }
+
+    /// First index at or after `i` holding the delimiter, CR or LF (`data.len()` if none),
+    /// eight bytes at a time.
+    #[inline(always)]
+    fn find_special(&self, data: &[u8], mut i: usize) -> usize {
+        let n = data.len();
+        while i + 8 <= n {
+            let w = u64::from_le_bytes(data[i..i + 8].try_into().unwrap());
+            let m = zero_bytes(w ^ self.delim8) | zero_bytes(w ^ (ONES * b'\n' as u64)) | zero_bytes(w ^ (ONES * b'\r' as u64));
+            if m != 0 {
+                return i + (m.trailing_zeros() / 8) as usize;
+            }
+            i += 8;
+        }
+        while i < n && !self.special[data[i] as usize] {
+            i += 1;
+        }
+        i
+    }
+
+    /// Scan the record starting at `data[pos]` like [`Scanner::scan`], without copying a
+    /// record that has no quoted field: the view then points into `data`.
+    #[inline]
+    pub fn scan_view<'a>(&self, data: &'a [u8], pos: usize, eof: bool, rec: &'a mut Record) -> (Scan, RecordView<'a>) {
+        let (r, copied) = self.scan_inner(data, pos, eof, rec, false);
+        let buf: &'a [u8] = if copied { &rec.buf } else { &data[pos..] };
+        (r, RecordView { buf, spans: &rec.spans })
     }
 
     /// Scan the record starting at `data[pos]` (pos < data.len()). `eof`: no more data
     /// will follow, so the end of `data` ends the record.
     pub fn scan(&self, data: &[u8], pos: usize, eof: bool, rec: &mut Record) -> Scan {
+        self.scan_inner(data, pos, eof, rec, true).0
+    }
+
+    /// The scanner. `copy_plain`: copy a record without quotes into `rec.buf` too. Returns
+    /// whether the fields are in `rec.buf` (else the spans are offsets from `pos` in `data`).
+    #[inline(always)]
+    fn scan_inner(&self, data: &[u8], pos: usize, eof: bool, rec: &mut Record, copy_plain: bool) -> (Scan, bool) {
         rec.buf.clear();
         rec.spans.clear();
         let n = data.len();
@@ -90,10 +185,10 @@ impl Scanner {
         let mut copying = false;
         macro_rules! done {
             ($next:expr, $lines:expr, $end:expr) => {{
-                if !copying {
+                if !copying && copy_plain {
                     rec.buf.extend_from_slice(&data[pos..$end]);
                 }
-                return Scan::Done { next: $next, lines: $lines };
+                return (Scan::Done { next: $next, lines: $lines }, copying || copy_plain);
             }};
         }
         loop {
@@ -115,13 +210,13 @@ impl Scanner {
                         Some(k) => j + k,
                         None => {
                             if !eof {
-                                return Scan::More;
+                                return (Scan::More, copying);
                             }
                             // Unclosed quote at the end of the file: take the rest.
                             lines += count_breaks(&data[j..]);
                             rec.buf.extend_from_slice(&data[j..]);
                             rec.spans.push((start.unwrap(), rec.buf.len()));
-                            return Scan::Done { next: n, lines };
+                            return (Scan::Done { next: n, lines }, true);
                         }
                     };
                     lines += count_breaks(&data[j..q]);
@@ -132,7 +227,7 @@ impl Scanner {
                         continue;
                     }
                     if q + 1 == n && !eof {
-                        return Scan::More;
+                        return (Scan::More, copying);
                     }
                     j = q + 1;
                     break;
@@ -140,9 +235,7 @@ impl Scanner {
                 i = j;
             }
             let st = i;
-            while i < n && !self.special[data[i] as usize] {
-                i += 1;
-            }
+            i = self.find_special(data, i);
             if copying {
                 let s0 = start.unwrap_or(rec.buf.len());
                 rec.buf.extend_from_slice(&data[st..i]);
@@ -154,13 +247,13 @@ impl Scanner {
                 if eof {
                     done!(n, lines, n)
                 }
-                return Scan::More;
+                return (Scan::More, copying);
             }
             let b = data[i];
             if b == self.delim {
                 i += 1;
                 if i == n && !eof {
-                    return Scan::More;
+                    return (Scan::More, copying);
                 }
                 if i == n {
                     if copying {
@@ -183,7 +276,7 @@ impl Scanner {
             if eof {
                 done!(n, lines + 1, i)
             }
-            return Scan::More;
+            return (Scan::More, copying);
         }
     }
 }
