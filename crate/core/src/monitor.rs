@@ -380,6 +380,51 @@ impl<'a> Monitor<'a> {
         Crossing { since_start: self.sum_w >= self.thr_w, since_change: self.sum_r >= self.thr_r }
     }
 
+    /// Add the invoices of `bins` one by one, exactly as repeated [`Monitor::push`] (the same
+    /// operations in the same order, so the same bits), stopping early after the first invoice
+    /// whose crossing is wanted: since the start when `want_start`, since a change when
+    /// `want_change`. Returns how many invoices were added and, on an early stop, that invoice's
+    /// crossing. One call runs the whole stretch in one vectorised loop (no dispatch per invoice).
+    pub fn push_run(&mut self, bins: &[u8], want_start: bool, want_change: bool) -> (usize, Option<Crossing>) {
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::is_x86_feature_detected!("avx") {
+                // SAFETY: the CPU has AVX (checked just above).
+                return unsafe { self.push_run_avx(bins, want_start, want_change) };
+            }
+        }
+        self.push_run_body(bins, want_start, want_change)
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx")]
+    fn push_run_avx(&mut self, bins: &[u8], want_start: bool, want_change: bool) -> (usize, Option<Crossing>) {
+        self.push_run_body(bins, want_start, want_change)
+    }
+
+    #[inline(always)]
+    fn push_run_body(&mut self, bins: &[u8], want_start: bool, want_change: bool) -> (usize, Option<Crossing>) {
+        let nb = self.w.len();
+        let lanes = &self.fam.lanes;
+        for (i, &b) in bins.iter().enumerate() {
+            let bin = b as usize;
+            let row = &lanes[bin * nb..bin * nb + nb];
+            let (sw, sr) = lanes_body(&mut self.w, &mut self.r, row, self.pi_r);
+            self.sum_w = sum_lanes(&sw);
+            self.sum_r = sum_lanes(&sr);
+            self.n += 1;
+            self.counts[bin] += 1;
+            if !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_w) || !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_r) || self.n % FLUSH_EVERY == 0 {
+                self.rescale();
+            }
+            let cr = Crossing { since_start: self.sum_w >= self.thr_w, since_change: self.sum_r >= self.thr_r };
+            if (cr.since_start && want_start) || (cr.since_change && want_change) {
+                return (i + 1, Some(cr));
+            }
+        }
+        (bins.len(), None)
+    }
+
     #[cold]
     fn rescale(&mut self) {
         let k = self.fam.len();
@@ -1167,67 +1212,88 @@ fn replay_shard(ctx: &ShardContext, recs: &mut [Rec], sids: std::ops::Range<usiz
         mon.reset(log_thr_start, log_c);
 
         let step = (n as usize).div_ceil(traj_max).max(1);
-        let mut to_next_point = step; // invoices left to the next regular trajectory point
         let mut traj = Vec::with_capacity(traj_max + 2);
-        let mut total = Amount::ZERO;
         let mut alarm: Option<(usize, &'static str)> = None;
         let mut ss_alarm: Option<usize> = None;
         let mut sc_alarm: Option<usize> = None;
-        let mut paid_before = Amount::ZERO;
         let mut lead_k = 0usize;
-        let mut asof_state: Option<(u64, Amount, f64, f64)> = None;
+        let mut asof_state: Option<(u64, f64, f64)> = None;
+        // Bins and the total first; the statistics then run in stretches between the points
+        // where something is recorded (a trajectory point, the as-of cut, a first crossing).
         bins.clear();
-        for (pos, v) in order_buf.iter().enumerate() {
-            let amount = Amount(v.amount);
-            if let Some(a) = opts.as_of {
-                if by_date && asof_state.is_none() && v.date > a {
-                    asof_state = Some((pos as u64, total, mon.log_since_start(), mon.log_since_change()));
+        let mut total = Amount::ZERO;
+        for v in order_buf {
+            bins.push(bin_of_scaled(v.amount) as u8);
+            total = total.saturating_add(Amount(v.amount));
+        }
+        let nu = n as usize;
+        // Invoices read when the replay date is passed: the first dated after it.
+        let cut = match opts.as_of {
+            Some(a) if by_date => Some(order_buf.iter().position(|v| v.date > a).unwrap_or(nu)),
+            _ => None,
+        };
+        let periods = if by_date { opts.period_points } else { None };
+        // The next position at or after `q` that is a regular trajectory point or the last.
+        let next_point = |q: usize| -> usize {
+            match periods {
+                Some(kind) => (q..nu).find(|&p| p + 1 == nu || kind.key(order_buf[p + 1].date) != kind.key(order_buf[p].date)).unwrap_or(nu - 1),
+                None => ((q / step + 1) * step - 1).min(nu - 1),
+            }
+        };
+        let mut pos = 0usize; // invoices read so far
+        let mut np = next_point(0);
+        loop {
+            if cut == Some(pos) && asof_state.is_none() {
+                asof_state = Some((pos as u64, mon.log_since_start(), mon.log_since_change()));
+            }
+            if pos == nu {
+                break;
+            }
+            let mut end = np + 1;
+            if let Some(c) = cut {
+                if c > pos {
+                    end = end.min(c);
                 }
             }
-            let b = bin_of_scaled(v.amount);
-            bins.push(b as u8);
-            let cr = mon.push(b);
-            total = total.saturating_add(amount);
+            let (used, cr) = mon.push_run(&bins[pos..end], ss_alarm.is_none(), sc_alarm.is_none());
+            let p = pos + used - 1;
+            pos += used;
             let mut is_alarm = false;
-            if cr.since_start && ss_alarm.is_none() {
-                ss_alarm = Some(pos);
-            }
-            if cr.since_change && sc_alarm.is_none() {
-                sc_alarm = Some(pos);
-            }
-            if alarm.is_none() && (cr.since_start || cr.since_change) {
-                alarm = Some((pos, if cr.since_start { "since_start" } else { "since_change" }));
-                paid_before = total;
-                lead_k = mon.leading_change_alternative();
-                is_alarm = true;
-            }
-            to_next_point -= 1;
-            let mut regular = to_next_point == 0;
-            if regular {
-                to_next_point = step;
-            }
-            let mut period = None;
-            if let (Some(kind), true) = (opts.period_points, by_date) {
-                let ends = pos + 1 == n as usize || kind.key(order_buf[pos + 1].date) != kind.key(v.date);
-                regular = ends;
-                if ends {
-                    period = Some(kind.label(v.date));
+            if let Some(cr) = cr {
+                if cr.since_start && ss_alarm.is_none() {
+                    ss_alarm = Some(p);
+                }
+                if cr.since_change && sc_alarm.is_none() {
+                    sc_alarm = Some(p);
+                }
+                if alarm.is_none() && (cr.since_start || cr.since_change) {
+                    alarm = Some((p, if cr.since_start { "since_start" } else { "since_change" }));
+                    lead_k = mon.leading_change_alternative();
+                    is_alarm = true;
                 }
             }
-            if is_alarm || regular || pos + 1 == n as usize {
+            let at_point = p == np;
+            if is_alarm || at_point {
+                let v = &order_buf[p];
                 traj.push(TrajectoryPoint {
-                    invoice: pos as u64 + 1,
+                    invoice: p as u64 + 1,
                     date: days_opt(v.date),
                     since_start_log: mon.log_since_start(),
                     since_change_log: mon.log_since_change(),
                     alarm: is_alarm,
-                    period,
+                    period: match periods {
+                        Some(kind) if at_point => Some(kind.label(v.date)),
+                        _ => None,
+                    },
                 });
             }
+            if at_point && pos < nu {
+                np = next_point(pos);
+            }
         }
-        if opts.as_of.is_some() && by_date && asof_state.is_none() {
-            asof_state = Some((n, total, mon.log_since_start(), mon.log_since_change()));
-        }
+        let prefix_paid = |k: usize| order_buf[..k].iter().fold(Amount::ZERO, |t, v| t.saturating_add(Amount(v.amount)));
+        let paid_before = alarm.map_or(Amount::ZERO, |(p, _)| prefix_paid(p + 1));
+        let asof_state = asof_state.map(|(k, ls, lc)| (k, prefix_paid(k as usize), ls, lc));
         let evidence_now = Evidence {
             since_start_log: mon.log_since_start(),
             since_start_threshold_log: log_thr_start,
