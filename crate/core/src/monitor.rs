@@ -1004,25 +1004,54 @@ struct Rec {
 /// reads the ledger once in order and writes compact records. Also returns the group starts
 /// and the number of undated invoices per supplier.
 fn group(ledger: &Ledger) -> (Vec<Rec>, Vec<usize>, Vec<u64>) {
-    let inv = &ledger.invoices;
     let ns = ledger.suppliers.len();
+    let (cnt, undated) = count_groups(&ledger.invoices, ns);
+    let start = group_starts(&cnt);
+    let recs = scatter(&ledger.invoices, 0..ns, &start);
+    (recs, start, undated)
+}
+
+/// Invoices and undated invoices per supplier among `inv`.
+fn count_groups(inv: &[Invoice], ns: usize) -> (Vec<usize>, Vec<u64>) {
+    let mut cnt = vec![0usize; ns];
     let mut undated = vec![0u64; ns];
-    let mut start = vec![0usize; ns + 1];
     for i in inv {
-        start[i.supplier as usize + 1] += 1;
+        cnt[i.supplier as usize] += 1;
         undated[i.supplier as usize] += (i.date == NO_DATE) as u64;
     }
-    for k in 0..ns {
-        start[k + 1] += start[k];
+    (cnt, undated)
+}
+
+/// Start of every supplier's group (and the total at the end) from the counts.
+fn group_starts(cnt: &[usize]) -> Vec<usize> {
+    let mut start = vec![0usize; cnt.len() + 1];
+    for k in 0..cnt.len() {
+        start[k + 1] = start[k] + cnt[k];
     }
-    let mut pos = start.clone();
-    let mut recs = vec![Rec::default(); inv.len()];
+    start
+}
+
+/// The records of suppliers `sids` only (their groups, each in file order, starting at record
+/// `start[sids.start]` of the whole grouping): one read of the ledger in order. The invoices of
+/// other suppliers are written to one spare slot past the end (no branch on the supplier), so
+/// that shards can group their own suppliers side by side.
+fn scatter(inv: &[Invoice], sids: std::ops::Range<usize>, start: &[usize]) -> Vec<Rec> {
+    let base = start[sids.start];
+    let len = start[sids.end] - base;
+    let ns = start.len() - 1;
+    let mut recs = vec![Rec::default(); len + 1];
+    // (next slot, step): step 0 and the spare slot for suppliers of other shards.
+    let mut pos = vec![(len, 0usize); ns];
+    for s in sids {
+        pos[s] = (start[s] - base, 1);
+    }
     for (j, i) in inv.iter().enumerate() {
         let p = &mut pos[i.supplier as usize];
-        recs[*p] = Rec { amount: i.amount.0, date: i.date, idx: j as u32 };
-        *p += 1;
+        recs[p.0] = Rec { amount: i.amount.0, date: i.date, idx: j as u32 };
+        p.0 += p.1;
     }
-    (recs, start, undated)
+    recs.truncate(len);
+    recs
 }
 
 /// One supplier's invoices (`g`, in file order) into reading order, in place: by date, ties by
@@ -1185,23 +1214,42 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
     let fam = Family::standard();
     let alpha = (1.0 - opts.confidence).clamp(1e-12, 0.5);
     let log_thr_start = (1.0 / alpha).ln();
-    let (mut recs, start, undated_of) = group(ledger);
+    let inv = &ledger.invoices;
+    let ns = ledger.suppliers.len();
+    let threads = cfg!(not(target_arch = "wasm32")) && std::thread::available_parallelism().map_or(1, |n| n.get()) > 1;
+    // Grouping by supplier: counted (in two halves of the ledger side by side, when there are
+    // two threads and many invoices), then each shard writes the records of its own suppliers.
+    let (cnt, undated_of) = if threads && inv.len() >= 100_000 {
+        let (ia, ib) = inv.split_at(inv.len() / 2);
+        let ((mut ca, mut ua), (cb, ub)) = std::thread::scope(|sc| {
+            let h = sc.spawn(|| count_groups(ib, ns));
+            (count_groups(ia, ns), h.join().expect("count thread"))
+        });
+        for k in 0..ns {
+            ca[k] += cb[k];
+            ua[k] += ub[k];
+        }
+        (ca, ua)
+    } else {
+        count_groups(inv, ns)
+    };
+    let start = group_starts(&cnt);
     let lines_in_order = lines_in_order(ledger);
     let ctx = ShardContext { ledger, opts, fam: &fam, alpha, log_thr_start, lines_in_order, undated_of: &undated_of, start: &start };
     // Suppliers are independent: two shards (split at a supplier boundary near half of the
     // invoices) run on two threads where the platform has them; the results are joined in
     // supplier order, so the report is the same as from one thread.
-    let ns = ledger.suppliers.len();
-    let mid = (0..=ns).find(|&k| start[k] >= recs.len() / 2).unwrap_or(ns);
-    let (ra, rb) = recs.split_at_mut(start[mid]);
-    let two = cfg!(not(target_arch = "wasm32")) && ra.len().min(rb.len()) >= 50_000 && std::thread::available_parallelism().map_or(1, |n| n.get()) > 1;
+    let mid = (0..=ns).find(|&k| start[k] >= inv.len() / 2).unwrap_or(ns);
+    let two = threads && start[mid].min(inv.len() - start[mid]) >= 50_000;
     let ((mut suppliers, mut replay_rows, ua), (sb, rpb, ub)) = if two {
         std::thread::scope(|sc| {
-            let h = sc.spawn(|| replay_shard(&ctx, rb, mid..ns, start[mid]));
-            let first = replay_shard(&ctx, ra, 0..mid, 0);
+            let h = sc.spawn(|| replay_shard(&ctx, &mut scatter(inv, mid..ns, &start), mid..ns, start[mid]));
+            let first = replay_shard(&ctx, &mut scatter(inv, 0..mid, &start), 0..mid, 0);
             (first, h.join().expect("replay thread"))
         })
     } else {
+        let mut recs = scatter(inv, 0..ns, &start);
+        let (ra, rb) = recs.split_at_mut(start[mid]);
         (replay_shard(&ctx, ra, 0..mid, 0), replay_shard(&ctx, rb, mid..ns, start[mid]))
     };
     suppliers.extend(sb);
