@@ -297,51 +297,11 @@ fn lanes_body(w: &mut [[f64; LANES]], r: &mut [[f64; LANES]], row: &[[f64; LANES
     (ow, or)
 }
 
-/// [`lanes_body`] written with AVX intrinsics (four lanes per register): the same IEEE
-/// multiplies and adds, element by element, in the same order (no fused multiply-add), so the
-/// same bits; the compiler did not vectorise the plain loop.
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx")]
-#[inline]
+#[inline(never)]
 fn lanes_body_avx(w: &mut [[f64; LANES]], r: &mut [[f64; LANES]], row: &[[f64; LANES]], pi: f64) -> ([f64; LANES], [f64; LANES]) {
-    use std::arch::x86_64::*;
-    let nb = w.len();
-    assert!(r.len() == nb && row.len() == nb);
-    let wp = w.as_mut_ptr() as *mut f64;
-    let rp = r.as_mut_ptr() as *mut f64;
-    let lp = row.as_ptr() as *const f64;
-    let z = _mm256_setzero_pd();
-    let piv = _mm256_set1_pd(pi);
-    // acc[block parity][half]: the per-lane sums of even and odd blocks, as in `lanes_body`.
-    let mut aw = [[z; 2]; 2];
-    let mut ar = [[z; 2]; 2];
-    let n2 = nb / 2 * 2;
-    for j in 0..nb {
-        let par = if j < n2 { j & 1 } else { 0 };
-        for h in 0..2 {
-            let off = j * LANES + h * 4;
-            // SAFETY: off + 4 <= nb * LANES, the length of all three arrays (asserted above).
-            unsafe {
-                let l = _mm256_loadu_pd(lp.add(off));
-                let a = _mm256_mul_pd(_mm256_loadu_pd(wp.add(off)), l);
-                _mm256_storeu_pd(wp.add(off), a);
-                aw[par][h] = _mm256_add_pd(aw[par][h], a);
-                let b = _mm256_mul_pd(_mm256_add_pd(_mm256_loadu_pd(rp.add(off)), piv), l);
-                _mm256_storeu_pd(rp.add(off), b);
-                ar[par][h] = _mm256_add_pd(ar[par][h], b);
-            }
-        }
-    }
-    let mut ow = [0.0f64; LANES];
-    let mut or = [0.0f64; LANES];
-    for h in 0..2 {
-        // SAFETY: each store writes 4 of the 8 lanes of a local array.
-        unsafe {
-            _mm256_storeu_pd(ow.as_mut_ptr().add(h * 4), _mm256_add_pd(aw[0][h], aw[1][h]));
-            _mm256_storeu_pd(or.as_mut_ptr().add(h * 4), _mm256_add_pd(ar[0][h], ar[1][h]));
-        }
-    }
-    (ow, or)
+    lanes_body(w, r, row, pi)
 }
 
 #[inline(always)]
