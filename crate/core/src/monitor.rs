@@ -385,7 +385,8 @@ impl<'a> Monitor<'a> {
     /// operations in the same order, so the same bits), stopping early after the first invoice
     /// whose crossing is wanted: since the start when `want_start`, since a change when
     /// `want_change`. Returns how many invoices were added and, on an early stop, that invoice's
-    /// crossing. One call runs the whole stretch in one vectorised loop (no dispatch per invoice).
+    /// crossing. The CPU feature check is made once per stretch, not per invoice; the lane
+    /// update stays an out-of-line call (inlined here it was no longer vectorised).
     pub fn push_run(&mut self, bins: &[u8], want_start: bool, want_change: bool) -> (usize, Option<Crossing>) {
         #[cfg(target_arch = "x86_64")]
         {
