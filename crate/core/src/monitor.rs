@@ -299,6 +299,7 @@ fn lanes_body(w: &mut [[f64; LANES]], r: &mut [[f64; LANES]], row: &[[f64; LANES
 
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx")]
+#[inline(never)]
 fn lanes_body_avx(w: &mut [[f64; LANES]], r: &mut [[f64; LANES]], row: &[[f64; LANES]], pi: f64) -> ([f64; LANES], [f64; LANES]) {
     lanes_body(w, r, row, pi)
 }
@@ -378,6 +379,55 @@ impl<'a> Monitor<'a> {
             self.rescale();
         }
         Crossing { since_start: self.sum_w >= self.thr_w, since_change: self.sum_r >= self.thr_r }
+    }
+
+    /// Add the invoices of `bins` one by one, exactly as repeated [`Monitor::push`] (the same
+    /// operations in the same order, so the same bits), stopping early after the first invoice
+    /// whose crossing is wanted: since the start when `want_start`, since a change when
+    /// `want_change`. Returns how many invoices were added and, on an early stop, that invoice's
+    /// crossing. The CPU feature check is made once per stretch, not per invoice; the lane
+    /// update stays an out-of-line call (inlined here it was no longer vectorised).
+    pub fn push_run(&mut self, bins: &[u8], want_start: bool, want_change: bool) -> (usize, Option<Crossing>) {
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::is_x86_feature_detected!("avx") {
+                // SAFETY: the CPU has AVX (checked just above).
+                return unsafe { self.push_run_avx(bins, want_start, want_change) };
+            }
+        }
+        self.push_run_body(bins, want_start, want_change, lanes_body)
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx")]
+    fn push_run_avx(&mut self, bins: &[u8], want_start: bool, want_change: bool) -> (usize, Option<Crossing>) {
+        self.push_run_body(bins, want_start, want_change, |w, r, row, pi| lanes_body_avx(w, r, row, pi))
+    }
+
+    #[inline(always)]
+    fn push_run_body<F>(&mut self, bins: &[u8], want_start: bool, want_change: bool, body: F) -> (usize, Option<Crossing>)
+    where
+        F: Fn(&mut [[f64; LANES]], &mut [[f64; LANES]], &[[f64; LANES]], f64) -> ([f64; LANES], [f64; LANES]),
+    {
+        let nb = self.w.len();
+        let lanes = &self.fam.lanes;
+        for (i, &b) in bins.iter().enumerate() {
+            let bin = b as usize;
+            let row = &lanes[bin * nb..bin * nb + nb];
+            let (sw, sr) = body(&mut self.w, &mut self.r, row, self.pi_r);
+            self.sum_w = sum_lanes(&sw);
+            self.sum_r = sum_lanes(&sr);
+            self.n += 1;
+            self.counts[bin] += 1;
+            if !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_w) || !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_r) || self.n % FLUSH_EVERY == 0 {
+                self.rescale();
+            }
+            let cr = Crossing { since_start: self.sum_w >= self.thr_w, since_change: self.sum_r >= self.thr_r };
+            if (cr.since_start && want_start) || (cr.since_change && want_change) {
+                return (i + 1, Some(cr));
+            }
+        }
+        (bins.len(), None)
     }
 
     #[cold]
@@ -915,25 +965,54 @@ struct Rec {
 /// reads the ledger once in order and writes compact records. Also returns the group starts
 /// and the number of undated invoices per supplier.
 fn group(ledger: &Ledger) -> (Vec<Rec>, Vec<usize>, Vec<u64>) {
-    let inv = &ledger.invoices;
     let ns = ledger.suppliers.len();
+    let (cnt, undated) = count_groups(&ledger.invoices, ns);
+    let start = group_starts(&cnt);
+    let recs = scatter(&ledger.invoices, 0..ns, &start);
+    (recs, start, undated)
+}
+
+/// Invoices and undated invoices per supplier among `inv`.
+fn count_groups(inv: &[Invoice], ns: usize) -> (Vec<usize>, Vec<u64>) {
+    let mut cnt = vec![0usize; ns];
     let mut undated = vec![0u64; ns];
-    let mut start = vec![0usize; ns + 1];
     for i in inv {
-        start[i.supplier as usize + 1] += 1;
+        cnt[i.supplier as usize] += 1;
         undated[i.supplier as usize] += (i.date == NO_DATE) as u64;
     }
-    for k in 0..ns {
-        start[k + 1] += start[k];
+    (cnt, undated)
+}
+
+/// Start of every supplier's group (and the total at the end) from the counts.
+fn group_starts(cnt: &[usize]) -> Vec<usize> {
+    let mut start = vec![0usize; cnt.len() + 1];
+    for k in 0..cnt.len() {
+        start[k + 1] = start[k] + cnt[k];
     }
-    let mut pos = start.clone();
-    let mut recs = vec![Rec::default(); inv.len()];
+    start
+}
+
+/// The records of suppliers `sids` only (their groups, each in file order, starting at record
+/// `start[sids.start]` of the whole grouping): one read of the ledger in order. The invoices of
+/// other suppliers are written to one spare slot past the end (no branch on the supplier), so
+/// that shards can group their own suppliers side by side.
+fn scatter(inv: &[Invoice], sids: std::ops::Range<usize>, start: &[usize]) -> Vec<Rec> {
+    let base = start[sids.start];
+    let len = start[sids.end] - base;
+    let ns = start.len() - 1;
+    let mut recs = vec![Rec::default(); len + 1];
+    // (next slot, step): step 0 and the spare slot for suppliers of other shards.
+    let mut pos = vec![(len, 0usize); ns];
+    for s in sids {
+        pos[s] = (start[s] - base, 1);
+    }
     for (j, i) in inv.iter().enumerate() {
         let p = &mut pos[i.supplier as usize];
-        recs[*p] = Rec { amount: i.amount.0, date: i.date, idx: j as u32 };
-        *p += 1;
+        recs[p.0] = Rec { amount: i.amount.0, date: i.date, idx: j as u32 };
+        p.0 += p.1;
     }
-    (recs, start, undated)
+    recs.truncate(len);
+    recs
 }
 
 /// One supplier's invoices (`g`, in file order) into reading order, in place: by date, ties by
@@ -1000,36 +1079,30 @@ pub fn reading_orders(ledger: &Ledger) -> Vec<Vec<u32>> {
         .collect()
 }
 
+/// 10^k for k = 0..=18.
+const POW10: [u64; 19] = {
+    let mut t = [1u64; 19];
+    let mut k = 1;
+    while k < 19 {
+        t[k] = t[k - 1] * 10;
+        k += 1;
+    }
+    t
+};
+
 /// First-two digit bin of a scaled amount, exactly as [`first_two_bin`] (the same integer
-/// quotient `|v| / 10^(digits - 2)`, or `|v| · 10` for a one-digit integer) but with constant
-/// divisors, which the compiler turns into multiplications. Zero gives bin 0, as in the replay.
+/// quotient `|v| / 10^(digits - 2)`, or `|v| · 10` for a one-digit integer) without the
+/// general digit-reading machinery. Zero gives bin 0, as in the replay.
 #[inline]
 fn bin_of_scaled(v: i64) -> usize {
     let v = v.unsigned_abs();
     if v == 0 {
         return 0;
     }
-    let q = match v.ilog10() {
-        0 => v * 10,
-        1 => v,
-        2 => v / 10,
-        3 => v / 100,
-        4 => v / 1_000,
-        5 => v / 10_000,
-        6 => v / 100_000,
-        7 => v / 1_000_000,
-        8 => v / 10_000_000,
-        9 => v / 100_000_000,
-        10 => v / 1_000_000_000,
-        11 => v / 10_000_000_000,
-        12 => v / 100_000_000_000,
-        13 => v / 1_000_000_000_000,
-        14 => v / 10_000_000_000_000,
-        15 => v / 100_000_000_000_000,
-        16 => v / 1_000_000_000_000_000,
-        17 => v / 10_000_000_000_000_000,
-        _ => v / 100_000_000_000_000_000,
-    };
+    // One division by a power of ten from a table: no branch on the number of digits (a
+    // `match` with constant divisors mispredicted on amounts spanning several decades).
+    let d = v.ilog10() as usize;
+    let q = if d == 0 { v * 10 } else { v / POW10[d - 1] };
     (q - 10) as usize
 }
 
@@ -1096,23 +1169,42 @@ pub fn watch(ledger: &Ledger, opts: &WatchOptions) -> WatchReport {
     let fam = Family::standard();
     let alpha = (1.0 - opts.confidence).clamp(1e-12, 0.5);
     let log_thr_start = (1.0 / alpha).ln();
-    let (mut recs, start, undated_of) = group(ledger);
+    let inv = &ledger.invoices;
+    let ns = ledger.suppliers.len();
+    let threads = cfg!(not(target_arch = "wasm32")) && std::thread::available_parallelism().map_or(1, |n| n.get()) > 1;
+    // Grouping by supplier: counted (in two halves of the ledger side by side, when there are
+    // two threads and many invoices), then each shard writes the records of its own suppliers.
+    let (cnt, undated_of) = if threads && inv.len() >= 100_000 {
+        let (ia, ib) = inv.split_at(inv.len() / 2);
+        let ((mut ca, mut ua), (cb, ub)) = std::thread::scope(|sc| {
+            let h = sc.spawn(|| count_groups(ib, ns));
+            (count_groups(ia, ns), h.join().expect("count thread"))
+        });
+        for k in 0..ns {
+            ca[k] += cb[k];
+            ua[k] += ub[k];
+        }
+        (ca, ua)
+    } else {
+        count_groups(inv, ns)
+    };
+    let start = group_starts(&cnt);
     let lines_in_order = lines_in_order(ledger);
     let ctx = ShardContext { ledger, opts, fam: &fam, alpha, log_thr_start, lines_in_order, undated_of: &undated_of, start: &start };
     // Suppliers are independent: two shards (split at a supplier boundary near half of the
     // invoices) run on two threads where the platform has them; the results are joined in
     // supplier order, so the report is the same as from one thread.
-    let ns = ledger.suppliers.len();
-    let mid = (0..=ns).find(|&k| start[k] >= recs.len() / 2).unwrap_or(ns);
-    let (ra, rb) = recs.split_at_mut(start[mid]);
-    let two = cfg!(not(target_arch = "wasm32")) && ra.len().min(rb.len()) >= 50_000 && std::thread::available_parallelism().map_or(1, |n| n.get()) > 1;
+    let mid = (0..=ns).find(|&k| start[k] >= inv.len() / 2).unwrap_or(ns);
+    let two = threads && start[mid].min(inv.len() - start[mid]) >= 50_000;
     let ((mut suppliers, mut replay_rows, ua), (sb, rpb, ub)) = if two {
         std::thread::scope(|sc| {
-            let h = sc.spawn(|| replay_shard(&ctx, rb, mid..ns, start[mid]));
-            let first = replay_shard(&ctx, ra, 0..mid, 0);
+            let h = sc.spawn(|| replay_shard(&ctx, &mut scatter(inv, mid..ns, &start), mid..ns, start[mid]));
+            let first = replay_shard(&ctx, &mut scatter(inv, 0..mid, &start), 0..mid, 0);
             (first, h.join().expect("replay thread"))
         })
     } else {
+        let mut recs = scatter(inv, 0..ns, &start);
+        let (ra, rb) = recs.split_at_mut(start[mid]);
         (replay_shard(&ctx, ra, 0..mid, 0), replay_shard(&ctx, rb, mid..ns, start[mid]))
     };
     suppliers.extend(sb);
@@ -1167,67 +1259,88 @@ fn replay_shard(ctx: &ShardContext, recs: &mut [Rec], sids: std::ops::Range<usiz
         mon.reset(log_thr_start, log_c);
 
         let step = (n as usize).div_ceil(traj_max).max(1);
-        let mut to_next_point = step; // invoices left to the next regular trajectory point
         let mut traj = Vec::with_capacity(traj_max + 2);
-        let mut total = Amount::ZERO;
         let mut alarm: Option<(usize, &'static str)> = None;
         let mut ss_alarm: Option<usize> = None;
         let mut sc_alarm: Option<usize> = None;
-        let mut paid_before = Amount::ZERO;
         let mut lead_k = 0usize;
-        let mut asof_state: Option<(u64, Amount, f64, f64)> = None;
+        let mut asof_state: Option<(u64, f64, f64)> = None;
+        // Bins and the total first; the statistics then run in stretches between the points
+        // where something is recorded (a trajectory point, the as-of cut, a first crossing).
         bins.clear();
-        for (pos, v) in order_buf.iter().enumerate() {
-            let amount = Amount(v.amount);
-            if let Some(a) = opts.as_of {
-                if by_date && asof_state.is_none() && v.date > a {
-                    asof_state = Some((pos as u64, total, mon.log_since_start(), mon.log_since_change()));
+        let mut total = Amount::ZERO;
+        for v in order_buf {
+            bins.push(bin_of_scaled(v.amount) as u8);
+            total = total.saturating_add(Amount(v.amount));
+        }
+        let nu = n as usize;
+        // Invoices read when the replay date is passed: the first dated after it.
+        let cut = match opts.as_of {
+            Some(a) if by_date => Some(order_buf.iter().position(|v| v.date > a).unwrap_or(nu)),
+            _ => None,
+        };
+        let periods = if by_date { opts.period_points } else { None };
+        // The next position at or after `q` that is a regular trajectory point or the last.
+        let next_point = |q: usize| -> usize {
+            match periods {
+                Some(kind) => (q..nu).find(|&p| p + 1 == nu || kind.key(order_buf[p + 1].date) != kind.key(order_buf[p].date)).unwrap_or(nu - 1),
+                None => ((q / step + 1) * step - 1).min(nu - 1),
+            }
+        };
+        let mut pos = 0usize; // invoices read so far
+        let mut np = next_point(0);
+        loop {
+            if cut == Some(pos) && asof_state.is_none() {
+                asof_state = Some((pos as u64, mon.log_since_start(), mon.log_since_change()));
+            }
+            if pos == nu {
+                break;
+            }
+            let mut end = np + 1;
+            if let Some(c) = cut {
+                if c > pos {
+                    end = end.min(c);
                 }
             }
-            let b = bin_of_scaled(v.amount);
-            bins.push(b as u8);
-            let cr = mon.push(b);
-            total = total.saturating_add(amount);
+            let (used, cr) = mon.push_run(&bins[pos..end], ss_alarm.is_none(), sc_alarm.is_none());
+            let p = pos + used - 1;
+            pos += used;
             let mut is_alarm = false;
-            if cr.since_start && ss_alarm.is_none() {
-                ss_alarm = Some(pos);
-            }
-            if cr.since_change && sc_alarm.is_none() {
-                sc_alarm = Some(pos);
-            }
-            if alarm.is_none() && (cr.since_start || cr.since_change) {
-                alarm = Some((pos, if cr.since_start { "since_start" } else { "since_change" }));
-                paid_before = total;
-                lead_k = mon.leading_change_alternative();
-                is_alarm = true;
-            }
-            to_next_point -= 1;
-            let mut regular = to_next_point == 0;
-            if regular {
-                to_next_point = step;
-            }
-            let mut period = None;
-            if let (Some(kind), true) = (opts.period_points, by_date) {
-                let ends = pos + 1 == n as usize || kind.key(order_buf[pos + 1].date) != kind.key(v.date);
-                regular = ends;
-                if ends {
-                    period = Some(kind.label(v.date));
+            if let Some(cr) = cr {
+                if cr.since_start && ss_alarm.is_none() {
+                    ss_alarm = Some(p);
+                }
+                if cr.since_change && sc_alarm.is_none() {
+                    sc_alarm = Some(p);
+                }
+                if alarm.is_none() && (cr.since_start || cr.since_change) {
+                    alarm = Some((p, if cr.since_start { "since_start" } else { "since_change" }));
+                    lead_k = mon.leading_change_alternative();
+                    is_alarm = true;
                 }
             }
-            if is_alarm || regular || pos + 1 == n as usize {
+            let at_point = p == np;
+            if is_alarm || at_point {
+                let v = &order_buf[p];
                 traj.push(TrajectoryPoint {
-                    invoice: pos as u64 + 1,
+                    invoice: p as u64 + 1,
                     date: days_opt(v.date),
                     since_start_log: mon.log_since_start(),
                     since_change_log: mon.log_since_change(),
                     alarm: is_alarm,
-                    period,
+                    period: match periods {
+                        Some(kind) if at_point => Some(kind.label(v.date)),
+                        _ => None,
+                    },
                 });
             }
+            if at_point && pos < nu {
+                np = next_point(pos);
+            }
         }
-        if opts.as_of.is_some() && by_date && asof_state.is_none() {
-            asof_state = Some((n, total, mon.log_since_start(), mon.log_since_change()));
-        }
+        let prefix_paid = |k: usize| order_buf[..k].iter().fold(Amount::ZERO, |t, v| t.saturating_add(Amount(v.amount)));
+        let paid_before = alarm.map_or(Amount::ZERO, |(p, _)| prefix_paid(p + 1));
+        let asof_state = asof_state.map(|(k, ls, lc)| (k, prefix_paid(k as usize), ls, lc));
         let evidence_now = Evidence {
             since_start_log: mon.log_since_start(),
             since_start_threshold_log: log_thr_start,

@@ -128,3 +128,49 @@ fn evidence_survives_a_bin_its_leading_alternatives_exclude() {
     assert!(mon.log_since_change() <= d + 1e-9, "SR {} above direct {}", mon.log_since_change(), d);
     eprintln!("after the excluded bin: ln E = {:.3} (closed form {:.3}), ln R = {:.3} (definition {:.3})", mon.log_since_start(), cf, mon.log_since_change(), d);
 }
+
+#[test]
+fn batched_run_matches_closed_form_and_stops_at_first_crossing() {
+    // The replay's batched update (`push_run`, uneven stretches) against the same closed forms
+    // (the definition: E = Σ π_k Π q_k/p over the invoices so far; R by the Shiryaev–Roberts
+    // definition), and its early stop against the first invoice where the closed form crosses.
+    let fam = Family::standard();
+    let mut rng = Xoshiro256PlusPlus::seed_from_u64(11);
+    let bins: Vec<u8> = (0..3000)
+        .map(|t| {
+            let x = if t >= 1200 && unif(&mut rng) < 0.5 { 100.0 + 800.0 * unif(&mut rng) } else { 10f64.powf(1.0 + 4.0 * unif(&mut rng)) };
+            bin_of(x) as u8
+        })
+        .collect();
+    let all: Vec<usize> = bins.iter().map(|&b| b as usize).collect();
+    let mut counts = [0u64; 90];
+    let mut mon = Monitor::new(&fam, f64::INFINITY, f64::INFINITY);
+    let mut pos = 0;
+    for len in [1usize, 7, 64, 65, 200, 663, 1000, 1000] {
+        let end = (pos + len).min(bins.len());
+        let (used, cr) = mon.push_run(&bins[pos..end], true, true);
+        assert_eq!((used, cr.is_some()), (end - pos, false), "infinite thresholds never stop");
+        for &b in &bins[pos..end] {
+            counts[b as usize] += 1;
+        }
+        pos = end;
+        let cf = closed_form_log_since_start(&fam, &counts);
+        assert!(close(mon.log_since_start(), cf), "after {pos}: run {} closed form {cf}", mon.log_since_start());
+        let d = direct_log_since_change(&fam, &all[..pos]);
+        assert!(close(mon.log_since_change(), d), "after {pos}: SR run {} direct {d}", mon.log_since_change());
+    }
+    // Threshold ln 20 (confidence 0.95, Ville): the run stops at the first invoice whose closed
+    // form reaches it (values near the threshold within 1e-9 would make this ambiguous; none here).
+    let thr = 20f64.ln();
+    let mut c = [0u64; 90];
+    let first = (0..bins.len())
+        .find(|&i| {
+            c[bins[i] as usize] += 1;
+            closed_form_log_since_start(&fam, &c) >= thr
+        })
+        .expect("half fabricated after 1200 invoices crosses");
+    let mut mon = Monitor::new(&fam, thr, f64::INFINITY);
+    let (used, cr) = mon.push_run(&bins, true, false);
+    assert_eq!(used, first + 1);
+    assert!(cr.expect("stopped").since_start);
+}
