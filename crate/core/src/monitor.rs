@@ -1340,7 +1340,7 @@ fn replay_shard(ctx: &ShardContext, recs: &mut [Rec], sids: std::ops::Range<usiz
         }
         let prefix_paid = |k: usize| order_buf[..k].iter().fold(Amount::ZERO, |t, v| t.saturating_add(Amount(v.amount)));
         let paid_before = alarm.map_or(Amount::ZERO, |(p, _)| prefix_paid(p + 1));
-        let asof_state = asof_state.map(|(k, ls, lc)| (k, prefix_paid(k as usize), ls, lc));
+        let asof_state = asof_state.map(|(k, since_start_log, since_change_log)| CutState { pos: k as usize, invoices: k, paid: prefix_paid(k as usize), since_start_log, since_change_log });
         let evidence_now = Evidence {
             since_start_log: mon.log_since_start(),
             since_start_threshold_log: log_thr_start,
@@ -1383,49 +1383,109 @@ fn replay_shard(ctx: &ShardContext, recs: &mut [Rec], sids: std::ops::Range<usiz
                 share,
             }
         });
-        let name = ledger.suppliers[sid].name.clone();
-        // `asof_state` is only set when a replay date was asked for.
-        if let (Some((pos_cut, paid_so_far, ls, lc)), Some((apos, which))) = (asof_state, alarm) {
-            if (apos as u64) < pos_cut {
-                replay_rows.push(ReplaySupplier {
-                    id: sid as u32,
-                    name: name.clone(),
-                    alarm_date: date_at(apos),
-                    alarm_evidence: Some(which),
-                    invoices_so_far: pos_cut,
-                    paid_so_far,
-                    paid_since_alarm: Amount(paid_so_far.0 - paid_before.0),
-                    evidence: Evidence { since_start_log: ls, since_change_log: lc, ..evidence_now.clone() },
-                });
-            }
-        }
-        suppliers.push(SupplierWatch {
-            id: sid as u32,
-            name,
-            invoices: n,
-            amount_total: total,
-            first_date: days_opt(first),
-            last_date: days_opt(last),
-            order: if by_date { "date" } else { "file order" },
-            undated_invoices: undated,
-            invoices_per_year: per_year,
-            in_alarm: alarm.is_some(),
-            alarm_date: alarm.and_then(|(p, _)| date_at(p)),
-            alarm_invoice: alarm.map(|(p, _)| p as u64 + 1),
-            alarm_line: alarm.map(|(p, _)| inv(order_buf[p].idx).line),
-            alarm_evidence: alarm.map(|(_, w)| w),
-            since_start_alarm_date: ss_alarm.and_then(date_at),
-            since_change_alarm_date: sc_alarm.and_then(date_at),
-            invoices_before_alarm: alarm.map(|(p, _)| p as u64 + 1),
-            paid_before_alarm: alarm.map(|_| paid_before),
-            invoices_after_alarm: alarm.map(|(p, _)| n - p as u64 - 1),
-            paid_after_alarm: alarm.map(|_| Amount(total.0 - paid_before.0)),
-            evidence: evidence_now,
-            trajectory: traj,
-            estimate,
-        });
+        let alarm = alarm.map(|(p, which)| AlarmAt { pos: p, which, date: date_at(p), invoices: p as u64 + 1, line: Some(inv(order_buf[p].idx).line), paid_before });
+        let crossings = (ss_alarm.and_then(date_at), sc_alarm.and_then(date_at));
+        let head = SupplierHead { id: sid, name: ledger.suppliers[sid].name.clone(), invoices: n, amount_total: total, days: (first, last), order: if by_date { "date" } else { "file order" }, undated_invoices: undated, invoices_per_year: per_year };
+        let (watch, replay_row) = supplier_result(head, alarm, crossings, evidence_now, traj, estimate, asof_state);
+        suppliers.push(watch);
+        replay_rows.extend(replay_row);
     }
     (suppliers, replay_rows, undated_total)
+}
+
+/// A supplier's first alarm, in the units of its path (invoice position or period index).
+struct AlarmAt {
+    pos: usize,
+    which: &'static str,
+    date: Option<String>,
+    /// Invoices up to and including the alarm (its invoice, or the end of its period).
+    invoices: u64,
+    line: Option<u32>,
+    paid_before: Amount,
+}
+
+/// The monitor at the as-of cut: the first position after the cut (invoice or period), the
+/// invoices and amount up to it, and ln E, ln R there.
+struct CutState {
+    pos: usize,
+    invoices: u64,
+    paid: Amount,
+    since_start_log: f64,
+    since_change_log: f64,
+}
+
+impl CutState {
+    fn at(pos: usize, invoices: u64, paid: Amount, mon: &Monitor) -> CutState {
+        CutState { pos, invoices, paid, since_start_log: mon.log_since_start(), since_change_log: mon.log_since_change() }
+    }
+}
+
+/// What a supplier's result says that does not depend on the alarm.
+struct SupplierHead {
+    id: usize,
+    name: String,
+    invoices: u64,
+    amount_total: Amount,
+    /// First and last day (`NO_DATE` when read in file order).
+    days: (i32, i32),
+    order: &'static str,
+    undated_invoices: u64,
+    invoices_per_year: f64,
+}
+
+/// One supplier's result, and its replay row when a replay date was asked for (`cut`) and the
+/// alarm came before the cut: shared by the invoice path ([`watch`]) and the period path
+/// ([`watch_periods`]). `crossings` are the dates of the first since-start and since-change
+/// crossings.
+fn supplier_result(
+    head: SupplierHead,
+    alarm: Option<AlarmAt>,
+    crossings: (Option<String>, Option<String>),
+    evidence: Evidence,
+    trajectory: Vec<TrajectoryPoint>,
+    estimate: Option<FabricatedEstimate>,
+    cut: Option<CutState>,
+) -> (SupplierWatch, Option<ReplaySupplier>) {
+    let SupplierHead { id, name, invoices: n, amount_total: total, days: (first, last), order, undated_invoices, invoices_per_year } = head;
+    let replay_row = match (cut, &alarm) {
+        (Some(c), Some(a)) if a.pos < c.pos => Some(ReplaySupplier {
+            id: id as u32,
+            name: name.clone(),
+            alarm_date: a.date.clone(),
+            alarm_evidence: Some(a.which),
+            invoices_so_far: c.invoices,
+            paid_so_far: c.paid,
+            paid_since_alarm: Amount(c.paid.0 - a.paid_before.0),
+            evidence: Evidence { since_start_log: c.since_start_log, since_change_log: c.since_change_log, ..evidence.clone() },
+        }),
+        _ => None,
+    };
+    let watch = SupplierWatch {
+        id: id as u32,
+        name,
+        invoices: n,
+        amount_total: total,
+        first_date: days_opt(first),
+        last_date: days_opt(last),
+        order,
+        undated_invoices,
+        invoices_per_year,
+        in_alarm: alarm.is_some(),
+        alarm_invoice: alarm.as_ref().map(|a| a.invoices),
+        alarm_line: alarm.as_ref().and_then(|a| a.line),
+        alarm_evidence: alarm.as_ref().map(|a| a.which),
+        since_start_alarm_date: crossings.0,
+        since_change_alarm_date: crossings.1,
+        invoices_before_alarm: alarm.as_ref().map(|a| a.invoices),
+        paid_before_alarm: alarm.as_ref().map(|a| a.paid_before),
+        invoices_after_alarm: alarm.as_ref().map(|a| n - a.invoices),
+        paid_after_alarm: alarm.as_ref().map(|a| Amount(total.0 - a.paid_before.0)),
+        alarm_date: alarm.and_then(|a| a.date),
+        evidence,
+        trajectory,
+        estimate,
+    };
+    (watch, replay_row)
 }
 
 /// Notes, ranking, amount at risk and replay: the part of the report shared by [`watch`] and
@@ -1523,11 +1583,11 @@ pub fn watch_periods(t: &CountTable, opts: &WatchOptions) -> WatchReport {
         let mut alarm: Option<(usize, &'static str)> = None;
         let (mut ss_alarm, mut sc_alarm) = (None, None);
         let mut lead_k = 0usize;
-        let mut asof_state: Option<(usize, u64, Amount, f64, f64)> = None;
+        let mut asof_state: Option<CutState> = None;
         for (i, x) in per.iter().enumerate() {
             if let Some(a) = opts.as_of {
                 if asof_state.is_none() && x.last_day > a {
-                    asof_state = Some((i, cum_n, total, mon.log_since_start(), mon.log_since_change()));
+                    asof_state = Some(CutState::at(i, cum_n, total, &mon));
                 }
             }
             let cr = mon.push_counts(&x.counts);
@@ -1558,7 +1618,7 @@ pub fn watch_periods(t: &CountTable, opts: &WatchOptions) -> WatchReport {
             }
         }
         if opts.as_of.is_some() && asof_state.is_none() {
-            asof_state = Some((per.len(), cum_n, total, mon.log_since_start(), mon.log_since_change()));
+            asof_state = Some(CutState::at(per.len(), cum_n, total, &mon));
         }
         let evidence_now = Evidence {
             since_start_log: mon.log_since_start(),
@@ -1629,45 +1689,12 @@ pub fn watch_periods(t: &CountTable, opts: &WatchOptions) -> WatchReport {
                 share,
             }
         });
-        if let (Some((cut, n_so_far, paid_so_far, ls, lc)), Some((apos, which))) = (asof_state, alarm) {
-            if apos < cut {
-                replay_rows.push(ReplaySupplier {
-                    id: sid as u32,
-                    name: sc.name.clone(),
-                    alarm_date: date_at(apos),
-                    alarm_evidence: Some(which),
-                    invoices_so_far: n_so_far,
-                    paid_so_far,
-                    paid_since_alarm: Amount(paid_so_far.0 - paid_before.0),
-                    evidence: Evidence { since_start_log: ls, since_change_log: lc, ..evidence_now.clone() },
-                });
-            }
-        }
-        suppliers.push(SupplierWatch {
-            id: sid as u32,
-            name: sc.name.clone(),
-            invoices: n,
-            amount_total: total,
-            first_date: days_opt(first),
-            last_date: days_opt(last),
-            order: "period",
-            undated_invoices: 0,
-            invoices_per_year: n as f64 / span_years,
-            in_alarm: alarm.is_some(),
-            alarm_date: alarm.and_then(|(i, _)| date_at(i)),
-            alarm_invoice: alarm.map(|(i, _)| cum_at[i].0),
-            alarm_line: None,
-            alarm_evidence: alarm.map(|(_, w)| w),
-            since_start_alarm_date: ss_alarm.and_then(date_at),
-            since_change_alarm_date: sc_alarm.and_then(date_at),
-            invoices_before_alarm: alarm.map(|(i, _)| cum_at[i].0),
-            paid_before_alarm: alarm.map(|_| paid_before),
-            invoices_after_alarm: alarm.map(|(i, _)| n - cum_at[i].0),
-            paid_after_alarm: alarm.map(|_| Amount(total.0 - paid_before.0)),
-            evidence: evidence_now,
-            trajectory: traj,
-            estimate,
-        });
+        let alarm = alarm.map(|(i, which)| AlarmAt { pos: i, which, date: date_at(i), invoices: cum_at[i].0, line: None, paid_before });
+        let crossings = (ss_alarm.and_then(date_at), sc_alarm.and_then(date_at));
+        let head = SupplierHead { id: sid, name: sc.name.clone(), invoices: n, amount_total: total, days: (first, last), order: "period", undated_invoices: 0, invoices_per_year: n as f64 / span_years };
+        let (watch, replay_row) = supplier_result(head, alarm, crossings, evidence_now, traj, estimate, asof_state);
+        suppliers.push(watch);
+        replay_rows.extend(replay_row);
     }
     let notes = vec![
         "digit-count table with periods: the order of invoices within a period is unknown, so evidence is evaluated only at period ends; the since-the-start evidence there equals the invoice-level value (a product of per-invoice likelihood ratios does not depend on their order); the change detector takes change points at period starts, its run length is counted in periods with invoices; alarm dates are period ends".to_string(),
