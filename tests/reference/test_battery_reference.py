@@ -8,29 +8,18 @@ when none exists it is built with `cargo build --release -p digitdrift-core --ex
 """
 import json
 import math
-import os
 import subprocess
 from collections import Counter
-from pathlib import Path
 
 import numpy as np
 import pytest
 from scipy import integrate, stats
 
-ROOT = Path(__file__).resolve().parents[2]
+from probe_examples import example_path
 
 
 def _probe_path():
-    if os.environ.get("BATTERY_PROBE"):
-        return Path(os.environ["BATTERY_PROBE"])
-    target = Path(os.environ.get("CARGO_TARGET_DIR", ROOT / "target"))
-    p = target / "release" / "examples" / "battery_probe"
-    if not p.exists():
-        subprocess.run(
-            ["cargo", "build", "--release", "-p", "digitdrift-core", "--example", "battery_probe"],
-            cwd=ROOT, check=True,
-        )
-    return p
+    return example_path("battery_probe", "BATTERY_PROBE")
 
 
 PROBE = None

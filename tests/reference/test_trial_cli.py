@@ -23,21 +23,14 @@ import numpy as np
 import pytest
 from scipy import stats
 
+from probe_examples import example_path
+
 ROOT = Path(__file__).resolve().parents[2]
 BIN = os.environ.get("DIGITDRIFT_BIN", str(ROOT / "target" / "release" / "digitdrift"))
 
 
 def _probe_path():
-    if os.environ.get("TRIAL_PROBE"):
-        return Path(os.environ["TRIAL_PROBE"])
-    target = Path(os.environ.get("CARGO_TARGET_DIR", ROOT / "target"))
-    p = target / "release" / "examples" / "trial_probe"
-    if not p.exists():
-        subprocess.run(
-            ["cargo", "build", "--release", "-p", "digitdrift-core", "--example", "trial_probe"],
-            cwd=ROOT, check=True,
-        )
-    return p
+    return example_path("trial_probe", "TRIAL_PROBE")
 
 
 def median_ranks(*ms):
