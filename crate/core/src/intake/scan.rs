@@ -16,6 +16,11 @@ pub struct Record {
 }
 
 impl Record {
+    /// The same fields as a [`RecordView`] over this record's own buffer.
+    #[inline]
+    pub fn view(&self) -> RecordView<'_> {
+        RecordView { buf: &self.buf, spans: &self.spans }
+    }
     #[inline]
     pub fn len(&self) -> usize {
         self.spans.len()
@@ -26,19 +31,14 @@ impl Record {
     }
     #[inline]
     pub fn field(&self, i: usize) -> &[u8] {
-        let (s, e) = self.spans[i];
-        &self.buf[s..e]
+        self.view().field(i)
     }
     /// Number of fields after dropping trailing fields that are empty or white space.
     pub fn width(&self) -> usize {
-        let mut w = self.len();
-        while w > 0 && super::amount::trim_cell(self.field(w - 1)).is_empty() {
-            w -= 1;
-        }
-        w
+        self.view().width()
     }
     pub fn fields(&self) -> impl Iterator<Item = &[u8]> {
-        (0..self.len()).map(move |i| self.field(i))
+        self.view().fields()
     }
 }
 
