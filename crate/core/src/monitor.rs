@@ -371,8 +371,16 @@ impl<'a> Monitor<'a> {
         let nb = self.w.len();
         let row = &self.fam.lanes[bin * nb..bin * nb + nb];
         let (sw, sr) = lanes_step(&mut self.w, &mut self.r, row, self.pi_r);
-        self.sum_w = sum_lanes(&sw);
-        self.sum_r = sum_lanes(&sr);
+        self.settle(bin, &sw, &sr)
+    }
+
+    /// After the lane update of one invoice in `bin` (lane sums `sw`, `sr`): the new sums, the
+    /// counts, a rescale when due, and the crossing. Shared by [`Monitor::push`] and
+    /// [`Monitor::push_run`], so both take the same steps in the same order.
+    #[inline(always)]
+    fn settle(&mut self, bin: usize, sw: &[f64; LANES], sr: &[f64; LANES]) -> Crossing {
+        self.sum_w = sum_lanes(sw);
+        self.sum_r = sum_lanes(sr);
         self.n += 1;
         self.counts[bin] += 1;
         if !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_w) || !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_r) || self.n % FLUSH_EVERY == 0 {
@@ -415,14 +423,7 @@ impl<'a> Monitor<'a> {
             let bin = b as usize;
             let row = &lanes[bin * nb..bin * nb + nb];
             let (sw, sr) = body(&mut self.w, &mut self.r, row, self.pi_r);
-            self.sum_w = sum_lanes(&sw);
-            self.sum_r = sum_lanes(&sr);
-            self.n += 1;
-            self.counts[bin] += 1;
-            if !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_w) || !(RESCALE_LO..=RESCALE_HI).contains(&self.sum_r) || self.n % FLUSH_EVERY == 0 {
-                self.rescale();
-            }
-            let cr = Crossing { since_start: self.sum_w >= self.thr_w, since_change: self.sum_r >= self.thr_r };
+            let cr = self.settle(bin, &sw, &sr);
             if (cr.since_start && want_start) || (cr.since_change && want_change) {
                 return (i + 1, Some(cr));
             }
