@@ -147,19 +147,25 @@ fn detection_rises_with_fabricated_share() {
     assert!(last > 0.99);
 }
 
-#[test]
-fn results_do_not_depend_on_order() {
-    let p = benford::first_two();
-    let cat = Categorical::new(&p);
-    let mut rng = DetRng::seed_from_u64(4);
-    let inputs: Vec<SupplierInput> = [40u64, 250, 1800, 9000]
+/// Honest suppliers of the given sizes: first-two counts drawn from Benford with `seed`, all with
+/// the same amount range (11 to 3,000).
+fn honest_inputs(cat: &Categorical, seed: u64, sizes: &[u64]) -> Vec<SupplierInput> {
+    let mut rng = DetRng::seed_from_u64(seed);
+    sizes
         .iter()
         .map(|&n| {
             let mut c = vec![0u64; 90];
             cat.add(&mut rng, n, &mut c);
             SupplierInput { first_two_counts: c, amount_min: Amount::from_units(11), amount_max: Amount::from_units(3000) }
         })
-        .collect();
+        .collect()
+}
+
+#[test]
+fn results_do_not_depend_on_order() {
+    let p = benford::first_two();
+    let cat = Categorical::new(&p);
+    let inputs = honest_inputs(&cat, 4, &[40, 250, 1800, 9000]);
     let o = CalibrationOptions { sims: 2000, power_sims: 100, ..Default::default() };
     let mut a = Calibrator::new(o.clone());
     let mut b = Calibrator::new(o);
@@ -195,15 +201,7 @@ fn tables_split_over_threads_give_the_same_numbers() {
     let cost = |v: &Vec<u64>| v.iter().map(|&n| n.min(6000) + 100).sum::<u64>();
     assert!(cost(&parts[0]).abs_diff(cost(&parts[1])) <= 6100, "{parts:?}");
 
-    let mut rng = DetRng::seed_from_u64(8);
-    let inputs: Vec<SupplierInput> = [12u64, 40, 40, 250, 1800, 9000]
-        .iter()
-        .map(|&n| {
-            let mut c = vec![0u64; 90];
-            cat.add(&mut rng, n, &mut c);
-            SupplierInput { first_two_counts: c, amount_min: Amount::from_units(11), amount_max: Amount::from_units(3000) }
-        })
-        .collect();
+    let inputs = honest_inputs(&cat, 8, &[12, 40, 40, 250, 1800, 9000]);
     let o = CalibrationOptions { sims: 1000, power_sims: 60, ..Default::default() };
     let run = |threads: usize| {
         let mut c = Calibrator::new(o.clone());
