@@ -328,7 +328,7 @@ fn trial_export_is_marked_kept_apart_and_formula_safe() {
     res.ledger.suppliers[2].name = "-2+3, Ltd".into();
     let o = TrialOptions { share: 0.3, seed: 9, replications: 3, calibration: cal(500, Correction::Fdr), ..TrialOptions::default() };
     let (_, r) = run(&res, o);
-    let csv = trial_csv(&r, "@ledger.csv", "abc123");
+    let csv = trial_csv(&r, "@ledger.csv", "5e1f0c9d");
     let mut rd = csv::ReaderBuilder::new().has_headers(false).flexible(true).from_reader(csv.as_bytes());
     let rows: Vec<Vec<String>> = rd.records().map(|x| x.unwrap().iter().map(String::from).collect()).collect();
     assert!(rows[0][0].starts_with("# digitdrift DETECTION TRIAL on invented invoices"), "{}", rows[0][0]);
@@ -353,7 +353,7 @@ fn trial_export_is_marked_kept_apart_and_formula_safe() {
         assert_eq!(d[9].parse::<f64>().unwrap(), iv.high);
     }
     assert!(csv.split("\r\n").all(|l| !l.contains('\n')) && csv.ends_with("\r\n"), "RFC 4180 line ends");
-    let j: serde_json::Value = serde_json::from_str(&trial_json(&r, "@ledger.csv", "abc123")).unwrap();
+    let j: serde_json::Value = serde_json::from_str(&trial_json(&r, "@ledger.csv", "5e1f0c9d")).unwrap();
     assert!(j["notice"].as_str().unwrap().starts_with("digitdrift DETECTION TRIAL on invented invoices"));
     assert_eq!(j["trial"]["parameters"]["seed"], 9);
     assert!(j["caution"].as_str().unwrap().contains("not proof"));
