@@ -9,8 +9,10 @@ fn run(args: &[&str]) -> (i32, String, String) {
 }
 
 /// 30 suppliers of 300 invoices, log-uniform amounts (Benford digits) from a fixed LCG, dated over 2023-2024.
-fn ledger() -> std::path::PathBuf {
-    let dir = std::env::temp_dir().join(format!("dd-trial-cli-{}", std::process::id()));
+/// Each test writes its own copy (`tag`): the tests run as threads of one process, and one test
+/// rewriting a shared file while another reads it made the reader see a half-written ledger.
+fn ledger(tag: &str) -> std::path::PathBuf {
+    let dir = std::env::temp_dir().join(format!("dd-trial-cli-{}-{tag}", std::process::id()));
     std::fs::create_dir_all(&dir).unwrap();
     let f = dir.join("honest.csv");
     let mut s = String::from("Supplier,Date,Amount\n");
@@ -32,7 +34,7 @@ fn ledger() -> std::path::PathBuf {
 
 #[test]
 fn json_per_level_and_text_with_caution() {
-    let f = ledger();
+    let f = ledger("levels");
     let f = f.to_str().unwrap();
     let args = ["trial", f, "--pattern", "even", "--share", "0.5", "--from", "2024-01-01", "--replications", "3", "--seed", "7", "--suppliers", "all", "--sims", "1000", "--format", "json"];
     let (code, out, err) = run(&args);
@@ -71,7 +73,7 @@ fn json_per_level_and_text_with_caution() {
 
 #[test]
 fn bad_input_is_exit_2() {
-    let f = ledger();
+    let f = ledger("bad");
     let f = f.to_str().unwrap();
     for bad in [
         vec!["trial", f, "--pattern", "zigzag"],
@@ -91,7 +93,7 @@ fn bad_input_is_exit_2() {
 
 #[test]
 fn out_writes_a_marked_results_file_of_its_own() {
-    let f = ledger();
+    let f = ledger("out");
     let out = f.with_file_name("trial-results.csv");
     let (code, _, err) = run(&["trial", f.to_str().unwrap(), "--replications", "2", "--seed", "4", "--suppliers", "all", "--sims", "500", "--out", out.to_str().unwrap()]);
     assert_eq!(code, 0, "{err}");
