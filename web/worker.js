@@ -60,7 +60,7 @@ async function openLedger(id, blob, name, options, settings) {
   const res = await screenSplit(settings || {}, true);
   if (!res) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
   const ms = performance.now() - t0;
-  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, ms, sha256: session.fingerprint() } });
+  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, timing: res.timing, ms, sha256: session.fingerprint() } });
 }
 
 // ---------- a second Worker for the calibration's null tables ----------
@@ -120,17 +120,25 @@ async function helperTables(h, plan) {
 }
 
 // Screen with the null tables split over this Worker and the helper. Returns
-// {screen, workers} or, when `cancellable` and Cancel came, null.
+// {screen, workers, timing} or, when `cancellable` and Cancel came, null. Without a helper
+// (or when it fails) this Worker simulates every table, one per call, Cancel between.
+let helperWanted = true;
 async function screenSplit(settings, cancellable) {
+  const t0 = performance.now();
   const plan = session.screenPlan(settings);
-  const h = plan.theirs.length ? startHelper() : null;
+  const t1 = performance.now();
+  const h = plan.theirs.length && helperWanted ? startHelper() : null;
   const theirs = h ? helperTables(h, plan) : null;
-  const stop = () => { session.screenAbort(); stopHelper(); startHelper(); return null; };
-  for (const n of plan.mine) {
-    session.prepareTables([n]);
-    await yieldNow(); // lets the helper's messages (and a Cancel) in between tables
-    if (cancellable && cancelled) return stop();
-  }
+  const stop = () => { session.screenAbort(); stopHelper(); if (helperWanted) startHelper(); return null; };
+  const simulate = async (ns) => {
+    for (const n of ns) {
+      session.prepareTables([n]);
+      await yieldNow(); // lets the helper's messages (and a Cancel) in between tables
+      if (cancellable && cancelled) return false;
+    }
+    return true;
+  };
+  if (!(await simulate(plan.mine))) return stop();
   let tables = null;
   if (theirs && h.ready) {
     // waiting for the helper (already working on its share) beats simulating its share again
@@ -141,7 +149,11 @@ async function screenSplit(settings, cancellable) {
     stopHelper(); // not started in time: its share is simulated here; a fresh one next time
   }
   if (tables) session.insertTables(plan.theirs, tables);
-  return { screen: session.screenFinish(), workers: tables ? 2 : 1 };
+  else if (!(await simulate(plan.theirs))) return stop();
+  const t2 = performance.now();
+  const screen = session.screenFinish();
+  const t3 = performance.now();
+  return { screen, workers: tables ? 2 : 1, timing: { batteries: t1 - t0, tables: t2 - t1, finish: t3 - t2, mine: plan.mine.length, theirs: plan.theirs.length } };
 }
 
 // A zero-delay yield to the event loop, so a Cancel message gets in between replications.
@@ -189,7 +201,9 @@ const handlers = {
     }
     return openLedger(id, file, file.name, options, settings);
   },
-  async rescreen({ id, settings }) { const r = await screenSplit(settings || {}, false); post({ id, ok: true, value: r.screen, workers: r.workers }); },
+  async rescreen({ id, settings }) { const r = await screenSplit(settings || {}, false); post({ id, ok: true, value: r.screen, workers: r.workers, timing: r.timing }); },
+  // Benchmark and tests: screen without (false) or with (true, the default) the helper Worker.
+  async useHelper({ id, on }) { helperWanted = !!on; if (!on) stopHelper(); else startHelper(); post({ id, ok: true, value: helperWanted }); },
   // The helper's one job: null tables for another Worker's screen (see screenSplit).
   async tables({ ns, sims, seed }) {
     const t = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);
