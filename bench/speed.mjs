@@ -4,8 +4,95 @@
 // (also with its null tables split over 2 threads natively and 2 Workers in Chromium).
 // Usage: node bench/speed.mjs [path/to/examples/speed]   (build it with
 //   cargo build --release -p digitdrift-core --example speed; dist/digitdrift.html must be built)
+//
+// Page mode: node bench/speed.mjs --page [FILE]   (also build examples/screen_speed:
+//   cargo build --release -p digitdrift-core --example screen_speed)
+// The page's own screen of a 500-supplier ledger (FILE, else build/bench/ledger500-page.csv,
+// written here on first use: 500 suppliers, invoice counts log-uniform from 20 to 20,000 as in
+// workload::ledger_500, amounts log-uniform from 10 to 100,000), in a Worker started from the
+// page's own glue + worker + wasm blocks exactly as the page starts it: one screen to warm up,
+// then screens with one Worker and with the helper Worker, alternated, every one from a cold
+// calibrator (the tables are never kept between screens). Natively, examples/screen_speed
+// times the same phases. The calibrated p-values must be identical everywhere.
 import { execFileSync } from 'node:child_process';
+import { existsSync, mkdirSync, writeFileSync } from 'node:fs';
 import { launch, openPage } from '../tests/e2e/browser.mjs';
+
+if (process.argv[2] === '--page') {
+  await pageMode(process.argv[3]);
+  process.exit(0);
+}
+
+function writeLedger500(path) {
+  // xorshift64* (deterministic; only makes the benchmark's invented ledger)
+  let x = 0x9e3779b97f4a7c15n;
+  const next = () => { x ^= x >> 12n; x ^= (x << 25n) & 0xffffffffffffffffn; x ^= x >> 27n; return Number(((x * 0x2545f4914f6cdd1dn) & 0xffffffffffffffffn) >> 11n) / 2 ** 53; };
+  const lines = ['Supplier,Invoice No,Invoice Date,Amount'];
+  let no = 0;
+  for (let s = 0; s < 500; s++) {
+    const n = Math.round(Math.exp(Math.log(20) + next() * Math.log(1000)));
+    for (let i = 0; i < n; i++) {
+      const day = Math.floor(next() * 1800);
+      const d = new Date(Date.UTC(2021, 0, 1) + day * 86400000).toISOString().slice(0, 10);
+      lines.push(`Page Bench Supplier ${String(s).padStart(3, '0')},P${no++},${d},${(10 ** (1 + 4 * next())).toFixed(2)}`);
+    }
+  }
+  mkdirSync(path.slice(0, path.lastIndexOf('/')), { recursive: true });
+  writeFileSync(path, lines.join('\n') + '\n');
+}
+
+async function pageMode(file) {
+  if (!file) { file = 'build/bench/ledger500-page.csv'; if (!existsSync(file)) writeLedger500(file); }
+  const bin = `${process.env.CARGO_TARGET_DIR || 'target'}/release/examples/screen_speed`;
+  const native = JSON.parse(execFileSync(bin, [file], { encoding: 'utf8', maxBuffer: 1 << 28 }).trim());
+  const browser = await launch();
+  const { page } = await openPage(browser);
+  await page.evaluate(() => { const i = document.createElement('input'); i.type = 'file'; i.id = 'bench-file'; i.hidden = true; document.body.append(i); });
+  await page.setInputFiles('#bench-file', file);
+  const web = await page.evaluate(async () => {
+    const text = (id) => document.getElementById(id).textContent;
+    const bin = atob(text('dd-wasm').trim());
+    const wasm = new Uint8Array(bin.length);
+    for (let i = 0; i < bin.length; i++) wasm[i] = bin.charCodeAt(i);
+    const src = text('dd-glue') + '\n' + text('dd-worker'); // as web/app.js starts the page's Worker
+    const worker = new Worker(URL.createObjectURL(new Blob([src], { type: 'text/javascript' })));
+    let id = 0;
+    const call = (cmd, args) => new Promise((resolve, reject) => {
+      const me = ++id;
+      worker.onmessage = (ev) => { const m = ev.data; if (m.ready || m.progress || m.id !== me) return; if (m.ok) resolve(m); else reject(new Error(m.error)); };
+      worker.postMessage(Object.assign({ cmd, id: me }, args));
+    });
+    await new Promise((r) => { worker.onmessage = (ev) => { if (ev.data.ready) r(); }; worker.postMessage({ cmd: 'init', wasm: wasm.buffer, src }, [wasm.buffer]); });
+    await new Promise((r) => setTimeout(r, 500)); // the helper Worker instantiates its module
+    const file = document.getElementById('bench-file').files[0];
+    const open = await call('open', { file, options: {}, settings: {} });
+    const pick = (m, v) => ({ workers: m.workers ?? v.workers, timing: m.timing ?? v.timing, mc: v.screen.suppliers.map((s) => [s.calibration.mc_p_value, s.calibration.adjusted_p_value ?? -1, s.calibration.invoices_needed ?? -1]) });
+    const runs = [pick({}, open.value)];
+    for (const on of [false, true, false, true]) {
+      await call('useHelper', { on });
+      if (on) await new Promise((r) => setTimeout(r, 500));
+      const m = await call('rescreen', { settings: {} });
+      runs.push(Object.assign(pick(m, { screen: m.value }), { wanted: on ? 2 : 1 }));
+    }
+    worker.terminate();
+    return runs;
+  });
+  await browser.close();
+  const same = web.every((r) => JSON.stringify(r.mc) === JSON.stringify(native.mc));
+  const s = (ms) => (ms / 1000).toFixed(3).padStart(8);
+  console.log(`${file}: ${native.suppliers} suppliers, ${native.tables} null tables of 10,000 simulations (seconds)`);
+  console.log(`${'run'.padEnd(30)} ${'batteries'.padStart(9)} ${'tables'.padStart(8)} ${'rest'.padStart(8)} ${'screen'.padStart(8)}`);
+  const row = (label, b, t, f) => console.log(`${label.padEnd(30)} ${s(b * 1000)} ${s(t * 1000)} ${s(f * 1000)} ${s((b + t + f) * 1000)}`);
+  row('native, tables on 1 thread', native.batteries_s, native.tables_1_s, native.finish_s);
+  row('native, tables on 2 threads', native.batteries_s, native.tables_2_s, native.finish_s);
+  for (const [i, r] of web.entries()) {
+    if (i > 0 && r.workers !== r.wanted) throw new Error(`run ${i} used ${r.workers} Workers, asked for ${r.wanted}`);
+    row(`chromium ${i === 0 ? 'warm-up ' : ''}${r.workers} Worker${r.workers > 1 ? 's' : ''} (${r.timing.mine}+${r.timing.theirs})`, r.timing.batteries / 1000, r.timing.tables / 1000, r.timing.finish / 1000);
+  }
+  console.log(`calibrated p-values, corrected p-values and invoices needed identical native / every Chromium run: ${same}`);
+  console.log(JSON.stringify({ native, chromium: web.map((r) => ({ workers: r.workers, timing: r.timing })) }));
+  if (!same) process.exit(1);
+}
 
 const nativeBin = process.argv[2] || `${process.env.CARGO_TARGET_DIR || 'target'}/release/examples/speed`;
 const native = JSON.parse(execFileSync(nativeBin, { encoding: 'utf8' }).trim());

@@ -40,7 +40,7 @@
   const chartsReady = wasm_bindgen({ module_or_path: wasmBytes }).then(() => { $('version').textContent = wasm_bindgen.version(); });
   const workerSrc = $('dd-glue').textContent + '\n' + $('dd-worker').textContent;
   const worker = new Worker(URL.createObjectURL(new Blob([workerSrc], { type: 'text/javascript' })));
-  worker.postMessage({ cmd: 'init', wasm: wasmBytes.slice().buffer });
+  worker.postMessage({ cmd: 'init', wasm: wasmBytes.slice().buffer, src: workerSrc }); // src: for its helper Worker
   let nextId = 1;
   const pending = new Map();
   worker.onmessage = (ev) => {
@@ -163,6 +163,7 @@
       }
       state.intake = res.intake;
       state.report = res.screen;
+      state.calibrationWorkers = res.workers; // Workers that simulated the null tables (2, or 1 without a helper)
       state.selected = res.screen.suppliers.length ? res.screen.suppliers[0].id : null;
       renderAccounting();
       renderSupplierTable();

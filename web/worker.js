@@ -57,9 +57,103 @@ async function openLedger(id, blob, name, options, settings) {
   const intake = session.finish();
   if (!intake.ok) { post({ id, ok: true, value: { name, intake } }); return; }
   post({ progress: true, id, done, total, rows: intake.rows.read, stage: 'screening' });
-  const screen = session.screen(settings || {});
+  const res = await screenSplit(settings || {}, true);
+  if (!res) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
   const ms = performance.now() - t0;
-  post({ id, ok: true, value: { name, size: total, intake, screen, ms, sha256: session.fingerprint() } });
+  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, timing: res.timing, ms, sha256: session.fingerprint() } });
+}
+
+// ---------- a second Worker for the calibration's null tables ----------
+// A screen's null tables (one per invoice count it reads) are split in two shares of about
+// equal simulation cost: this Worker simulates one, a helper Worker (this same script, started
+// from this Worker's own blob: URL, sharing its compiled wasm module) the other, which comes
+// back as one transferred Float64Array. Each table is seeded by its own size, so the numbers
+// are those of one Worker. If the helper cannot start or fails, this Worker simulates the
+// missing tables itself: the same numbers, later.
+let isHelper = false;
+let wasmModule = null;
+let helper = null; // { worker, ready: boolean, started: Promise<boolean>, job: resolver | null }
+let onCancel = null;
+let helperUrl = null;
+
+function startHelper() {
+  if (helper || isHelper || !wasmModule || !helperUrl) return helper;
+  let w;
+  try { w = new Worker(helperUrl); } catch (e) { return null; }
+  const h = { worker: w, ready: false, job: null };
+  const fail = () => {
+    if (helper === h) helper = null;
+    w.terminate();
+    if (h.job) { const j = h.job; h.job = null; j(null); }
+    return false;
+  };
+  h.started = new Promise((resolve) => {
+    w.onmessage = (ev) => {
+      const m = ev.data;
+      if ('ready' in m) { h.ready = m.ready; resolve(m.ready || fail()); return; }
+      if (h.job) { const j = h.job; h.job = null; j(m.ok ? m.tables : null); }
+      if (!m.ok) fail();
+    };
+    w.onerror = (ev) => { ev.preventDefault(); resolve(fail()); };
+    w.onmessageerror = () => resolve(fail());
+  });
+  try { w.postMessage({ cmd: 'init', module: wasmModule, helper: true }); } catch (e) { fail(); return null; }
+  helper = h;
+  return h;
+}
+
+function stopHelper() {
+  if (!helper) return;
+  const h = helper;
+  helper = null;
+  h.worker.terminate();
+  if (h.job) { const j = h.job; h.job = null; j(null); }
+}
+
+// The helper's tables at plan.theirs, or null (helper failed or gone).
+async function helperTables(h, plan) {
+  if (!(await h.started) || helper !== h) return null;
+  return new Promise((resolve) => {
+    h.job = resolve;
+    h.worker.postMessage({ cmd: 'tables', ns: plan.theirs, sims: plan.sims, seed: plan.seed });
+  });
+}
+
+// Screen with the null tables split over this Worker and the helper. Returns
+// {screen, workers, timing} or, when `cancellable` and Cancel came, null. Without a helper
+// (or when it fails) this Worker simulates every table, one per call, Cancel between.
+let helperWanted = true;
+async function screenSplit(settings, cancellable) {
+  const t0 = performance.now();
+  const plan = session.screenPlan(settings);
+  const t1 = performance.now();
+  const h = plan.theirs.length && helperWanted ? startHelper() : null;
+  const theirs = h ? helperTables(h, plan) : null;
+  const stop = () => { session.screenAbort(); stopHelper(); if (helperWanted) startHelper(); return null; };
+  const simulate = async (ns) => {
+    for (const n of ns) {
+      session.prepareTables([n]);
+      await yieldNow(); // lets the helper's messages (and a Cancel) in between tables
+      if (cancellable && cancelled) return false;
+    }
+    return true;
+  };
+  if (!(await simulate(plan.mine))) return stop();
+  let tables = null;
+  if (theirs && h.ready) {
+    // waiting for the helper (already working on its share) beats simulating its share again
+    tables = await Promise.race([theirs, new Promise((r) => { onCancel = () => r(null); })]);
+    onCancel = null;
+    if (cancellable && cancelled) return stop();
+  } else if (h) {
+    stopHelper(); // not started in time: its share is simulated here; a fresh one next time
+  }
+  if (tables) session.insertTables(plan.theirs, tables);
+  else if (!(await simulate(plan.theirs))) return stop();
+  const t2 = performance.now();
+  const screen = session.screenFinish();
+  const t3 = performance.now();
+  return { screen, workers: tables ? 2 : 1, timing: { batteries: t1 - t0, tables: t2 - t1, finish: t3 - t2, mine: plan.mine.length, theirs: plan.theirs.length } };
 }
 
 // A zero-delay yield to the event loop, so a Cancel message gets in between replications.
@@ -107,7 +201,14 @@ const handlers = {
     }
     return openLedger(id, file, file.name, options, settings);
   },
-  async rescreen({ id, settings }) { post({ id, ok: true, value: session.screen(settings || {}) }); },
+  async rescreen({ id, settings }) { const r = await screenSplit(settings || {}, false); post({ id, ok: true, value: r.screen, workers: r.workers, timing: r.timing }); },
+  // Benchmark and tests: screen without (false) or with (true, the default) the helper Worker.
+  async useHelper({ id, on }) { helperWanted = !!on; if (!on) stopHelper(); else startHelper(); post({ id, ok: true, value: helperWanted }); },
+  // The helper's one job: null tables for another Worker's screen (see screenSplit).
+  async tables({ ns, sims, seed }) {
+    const t = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);
+    self.postMessage({ ok: true, tables: t }, [t.buffer]);
+  },
   async exportSuppliers({ id, fileName }) { post({ id, ok: true, value: session.suppliersCsv(fileName) }); },
   async exportPull({ id, items, fileName }) { post({ id, ok: true, value: session.pullCsv(items, fileName) }); },
   async exportTrial({ id, format, fileName }) { post({ id, ok: true, value: session.trialExport(format, fileName) }); },
@@ -138,10 +239,23 @@ const handlers = {
 self.onmessage = async (ev) => {
   const m = ev.data;
   if (m.cmd === 'init') {
-    ready = wasm_bindgen({ module_or_path: m.wasm }).then(() => post({ ready: true, version: wasm_bindgen.version() }));
+    isHelper = !!m.helper;
+    if (isHelper) {
+      ready = wasm_bindgen({ module_or_path: m.module }).then(() => post({ ready: true }), (e) => post({ ready: false, error: String(e) }));
+      return;
+    }
+    // The page's own glue + worker text: a blob: URL made here (a page-made one cannot be
+    // opened from a Worker of a file: page, whose origin is opaque).
+    if (m.src) helperUrl = URL.createObjectURL(new Blob([m.src], { type: 'text/javascript' }));
+    ready = WebAssembly.compile(m.wasm).then(async (mod) => {
+      await wasm_bindgen({ module_or_path: mod });
+      wasmModule = mod;
+      startHelper(); // started now, so that it is ready when the first screen needs it
+      post({ ready: true, version: wasm_bindgen.version() });
+    });
     return;
   }
-  if (m.cmd === 'cancel') { cancelled = true; return; }
+  if (m.cmd === 'cancel') { cancelled = true; if (onCancel) onCancel(); return; }
   try {
     await ready;
     await handlers[m.cmd](m);

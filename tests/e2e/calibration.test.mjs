@@ -24,6 +24,8 @@ test('page (wasm) and CLI (native) agree exactly on calibrated results', { skip:
   const nat = native.suppliers.map((s) => ({ name: s.name, invoices: s.invoices, verdict: s.verdict, mc: s.first_two.mc_p_value, crit: s.first_two.mad_critical, mad: s.first_two.mad, adj: s.calibration.adjusted_p_value, needed: s.invoices_needed }));
   assert.equal(web.length, nat.length);
   assert.deepEqual(web, nat);
+  // the null tables were split over the page's Worker and its helper Worker
+  assert.equal(await page.evaluate(() => window.digitdrift.calibrationWorkers), 2);
   assert.deepEqual(await page.evaluate(() => window.digitdrift.report.rows), native.rows);
   // The overview chart and the verdict column.
   await page.waitForSelector('#chart-overview[data-drawn="yes"]');

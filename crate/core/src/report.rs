@@ -149,7 +149,41 @@ fn first_two_counts(s: &SupplierResult, invs: &[&Invoice]) -> Vec<u64> {
 
 /// Calibrate the suppliers (in place) and summarise.
 pub fn calibrate_list(suppliers: &mut [SupplierResult], counts: &[Vec<u64>], copts: &CalibrationOptions) -> CalibrationSummary {
-    let mut cal = Calibrator::new(copts.clone());
+    calibrate_list_with(&mut Calibrator::new(copts.clone()), suppliers, counts)
+}
+
+/// The null-table sizes [`calibrate_list_with`] will read that `cal` does not hold yet (the
+/// suppliers' sizes, the power checkpoints and the limit curves), ascending: another Worker can
+/// simulate some of them and [`Calibrator::insert_table`] put them in first.
+pub fn calibration_tables(cal: &Calibrator, suppliers: &[SupplierResult], counts: &[Vec<u64>]) -> Vec<u64> {
+    let ns: Vec<u64> = counts.iter().map(|c| c.iter().sum()).collect();
+    let mut need = cal.ledger_missing(&ns);
+    need.extend(cal.missing_tables(&limit_curve_sizes(suppliers)));
+    need.sort_unstable();
+    need.dedup();
+    need
+}
+
+/// The invoice counts at which the overview's limit curves are drawn.
+fn limit_curve_sizes(suppliers: &[SupplierResult]) -> Vec<u64> {
+    let nmax = suppliers.iter().map(|s| s.invoices).max().unwrap_or(100).max(100);
+    let nmin = suppliers.iter().map(|s| s.invoices).filter(|&n| n > 0).min().unwrap_or(10).clamp(10, 100);
+    let mut ns: Vec<u64> = Vec::new();
+    let (l0, l1) = ((nmin as f64).ln(), ((nmax as f64) * 1.5).ln());
+    for k in 0..=24 {
+        let n = (l0 + (l1 - l0) * k as f64 / 24.0).exp().round() as u64;
+        if ns.last() != Some(&n) {
+            ns.push(n);
+        }
+    }
+    ns
+}
+
+/// As [`calibrate_list`], with the calibrator `cal` (its options; any null tables already in
+/// it, e.g. simulated by another Worker, are used as they are: each is seeded by its own n, so
+/// the numbers are the same as from a fresh one).
+pub fn calibrate_list_with(cal: &mut Calibrator, suppliers: &mut [SupplierResult], counts: &[Vec<u64>]) -> CalibrationSummary {
+    let copts = &cal.options().clone();
     let inputs: Vec<SupplierInput> = suppliers
         .iter()
         .zip(counts)
@@ -165,16 +199,7 @@ pub fn calibrate_list(suppliers: &mut [SupplierResult], counts: &[Vec<u64>], cop
         s.invoices_needed = Some(c.invoices_needed);
         s.calibration = Some(c);
     }
-    let nmax = suppliers.iter().map(|s| s.invoices).max().unwrap_or(100).max(100);
-    let nmin = suppliers.iter().map(|s| s.invoices).filter(|&n| n > 0).min().unwrap_or(10).clamp(10, 100);
-    let mut ns: Vec<u64> = Vec::new();
-    let (l0, l1) = ((nmin as f64).ln(), ((nmax as f64) * 1.5).ln());
-    for k in 0..=24 {
-        let n = (l0 + (l1 - l0) * k as f64 / 24.0).exp().round() as u64;
-        if ns.last() != Some(&n) {
-            ns.push(n);
-        }
-    }
+    let ns = limit_curve_sizes(suppliers);
     let hi = if copts.confidence < 0.999 { 0.999 } else { 0.9999 };
     let limit_curves = [copts.confidence, hi]
         .iter()
@@ -221,9 +246,17 @@ fn rank_key(s: &SupplierResult) -> f64 {
 }
 
 pub fn screen(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions) -> ScreenReport {
+    let (suppliers, counts) = supplier_batteries(ledger, opts);
+    let mut cal = opts.calibration.as_ref().map(|c| Calibrator::new(c.clone()));
+    finish_screen(ledger, info, min_amount, opts, suppliers, &counts, cal.as_mut())
+}
+
+/// The first half of [`screen`]: every supplier's battery (suppliers with invoices, in id
+/// order) and its first-two digit counts, which calibration reads.
+pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> (Vec<SupplierResult>, Vec<Vec<u64>>) {
     let groups = ledger.by_supplier();
     let mut counts = Vec::new();
-    let mut suppliers: Vec<SupplierResult> = groups
+    let suppliers: Vec<SupplierResult> = groups
         .iter()
         .enumerate()
         .filter(|(_, g)| !g.is_empty())
@@ -234,7 +267,22 @@ pub fn screen(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &Scr
             r
         })
         .collect();
-    let calibration = opts.calibration.as_ref().map(|c| calibrate_list(&mut suppliers, &counts, c));
+    (suppliers, counts)
+}
+
+/// The second half of [`screen`]: calibration with `cal` (made from `opts.calibration`, and
+/// holding any null tables simulated ahead; None when calibration is off), ranking, the whole
+/// file and the credit notes.
+pub fn finish_screen(
+    ledger: &Ledger,
+    info: &IntakeInfo,
+    min_amount: Amount,
+    opts: &ScreenOptions,
+    mut suppliers: Vec<SupplierResult>,
+    counts: &[Vec<u64>],
+    cal: Option<&mut Calibrator>,
+) -> ScreenReport {
+    let calibration = cal.map(|c| calibrate_list_with(c, &mut suppliers, counts));
     rank(&mut suppliers);
     let all: Vec<&Invoice> = ledger.invoices.iter().collect();
     let credits: Vec<&Invoice> = ledger.credit_notes.iter().collect();

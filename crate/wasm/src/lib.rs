@@ -6,6 +6,7 @@ mod bench;
 mod chart;
 
 use digitdrift_core::intake::{DateOrder, DecimalConvention, Intake, IntakeOptions, IntakeResult};
+use digitdrift_core::calibrate::{Calibrator, Categorical, NullTable};
 use digitdrift_core::{report, Amount, Invoice};
 use serde::Deserialize;
 use wasm_bindgen::prelude::*;
@@ -77,6 +78,49 @@ pub struct Session {
     trial: Option<digitdrift_core::trial::Trial>,
     /// The summary of the last finished trial: what the trial exports write.
     trial_last: Option<digitdrift_core::trial::TrialReport>,
+    /// A screen between `screenPlan` and `screenFinish` (batteries done, calibration to come).
+    pending: Option<PendingScreen>,
+}
+
+/// The batteries of a screen and its calibrator, while null tables are simulated ahead (part
+/// here, part in a second Worker).
+struct PendingScreen {
+    opts: report::ScreenOptions,
+    suppliers: Vec<report::SupplierResult>,
+    counts: Vec<Vec<u64>>,
+    cal: Option<Calibrator>,
+}
+
+fn sizes(ns: &[f64]) -> Vec<u64> {
+    ns.iter().map(|&n| n as u64).collect()
+}
+
+/// The screen summary the page receives: the bulky per-bin arrays of the larger tests are left
+/// to `supplierDetail`.
+fn screen_summary(rep: &report::ScreenReport) -> Result<JsValue, JsValue> {
+    let mut v = serde_json::to_value(rep).map_err(err)?;
+    for s in v["suppliers"].as_array_mut().into_iter().flatten() {
+        slim(s);
+    }
+    slim(&mut v["whole_file"]);
+    slim(&mut v["credit_notes"]);
+    to_js(&v)
+}
+
+/// Null tables at `ns` for `sims` simulations and `seed` (the second Worker's share of a
+/// screen's `screenPlan`): per size its four sorted columns (MAD, chi-square, KS, max |Z|) of
+/// `sims` values, concatenated in the order of `ns`. Each table comes from its own stream
+/// (seed, n), so they are the tables the first Worker would have simulated.
+#[wasm_bindgen(js_name = nullTables)]
+pub fn null_tables(ns: &[f64], sims: u32, seed: f64) -> Vec<f64> {
+    let cat = Categorical::new(&digitdrift_core::benford::first_two());
+    let mut out = Vec::with_capacity(ns.len() * 4 * sims as usize);
+    for t in NullTable::simulate_many(&cat, &sizes(ns), sims, seed as u64, 1) {
+        for c in t.columns() {
+            out.extend_from_slice(c);
+        }
+    }
+    out
 }
 
 #[wasm_bindgen]
@@ -84,7 +128,7 @@ impl Session {
     #[wasm_bindgen(constructor)]
     pub fn new(options: JsValue) -> Result<Session, JsValue> {
         let o = intake_options(options)?;
-        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None, trial_last: None })
+        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None, trial_last: None, pending: None })
     }
 
     /// Feed the next chunk of the file, in order.
@@ -117,14 +161,78 @@ impl Session {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         let opts = screen_options(settings)?;
         let rep = report::screen(&r.ledger, &r.info, self.min_amount, &opts);
-        let mut v = serde_json::to_value(&rep).map_err(err)?;
-        for s in v["suppliers"].as_array_mut().into_iter().flatten() {
-            slim(s);
-        }
-        slim(&mut v["whole_file"]);
-        slim(&mut v["credit_notes"]);
+        let v = screen_summary(&rep);
         self.report = Some(rep);
-        to_js(&v)
+        v
+    }
+
+    /// The first half of a screen split over two Workers: runs the batteries and returns the
+    /// null tables the calibration will read, split by simulation cost:
+    /// `{mine, theirs, sims, seed}` (`mine` for `prepareTables` here, `theirs` for `nullTables`
+    /// in the other Worker; both empty when calibration is off). Then `screenFinish`.
+    #[wasm_bindgen(js_name = screenPlan)]
+    pub fn screen_plan(&mut self, settings: JsValue) -> Result<JsValue, JsValue> {
+        self.pending = None;
+        let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
+        let opts = screen_options(settings)?;
+        let (suppliers, counts) = report::supplier_batteries(&r.ledger, &opts);
+        let cal = opts.calibration.as_ref().map(|c| Calibrator::new(c.clone()));
+        let (parts, sims, seed) = match &cal {
+            Some(c) => {
+                let need = report::calibration_tables(c, &suppliers, &counts);
+                (digitdrift_core::calibrate::split_sizes(&need, 2), c.options().sims, c.options().seed)
+            }
+            None => (vec![Vec::new(), Vec::new()], 0, 0),
+        };
+        self.pending = Some(PendingScreen { opts, suppliers, counts, cal });
+        to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "sims": sims, "seed": seed}))
+    }
+
+    /// Simulate the pending screen's null tables at `ns` here (one call per table lets the
+    /// Worker take a Cancel in between).
+    #[wasm_bindgen(js_name = prepareTables)]
+    pub fn prepare_tables(&mut self, ns: &[f64]) -> Result<(), JsValue> {
+        let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
+        if let Some(c) = p.cal.as_mut() {
+            c.prepare(&sizes(ns), 1);
+        }
+        Ok(())
+    }
+
+    /// Put null tables simulated by the other Worker (`nullTables(ns, sims, seed)`) in the
+    /// pending screen's calibrator.
+    #[wasm_bindgen(js_name = insertTables)]
+    pub fn insert_tables(&mut self, ns: &[f64], flat: &[f64]) -> Result<(), JsValue> {
+        let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
+        let Some(c) = p.cal.as_mut() else { return Ok(()) };
+        let sims = c.options().sims as usize;
+        if flat.len() != ns.len() * 4 * sims {
+            return Err(err("null tables of the wrong length"));
+        }
+        for (i, &n) in sizes(ns).iter().enumerate() {
+            let col = |j: usize| flat[(4 * i + j) * sims..(4 * i + j + 1) * sims].to_vec();
+            c.insert_table(NullTable::from_columns(n, [col(0), col(1), col(2), col(3)]));
+        }
+        Ok(())
+    }
+
+    /// The second half: calibration (any table still missing is simulated here), ranking and
+    /// the summary, the same as `screen` with the same settings.
+    #[wasm_bindgen(js_name = screenFinish)]
+    pub fn screen_finish(&mut self) -> Result<JsValue, JsValue> {
+        let p = self.pending.take().ok_or_else(|| err("no screen planned"))?;
+        let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
+        let mut cal = p.cal;
+        let rep = report::finish_screen(&r.ledger, &r.info, self.min_amount, &p.opts, p.suppliers, &p.counts, cal.as_mut());
+        let v = screen_summary(&rep);
+        self.report = Some(rep);
+        v
+    }
+
+    /// Drop a planned screen (after Cancel).
+    #[wasm_bindgen(js_name = screenAbort)]
+    pub fn screen_abort(&mut self) {
+        self.pending = None;
     }
 
     /// Every test of one supplier (id), or of the whole file (-1) or the credit notes (-2).

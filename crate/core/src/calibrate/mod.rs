@@ -719,16 +719,8 @@ impl Calibrator {
     pub fn ledger(&mut self, inputs: &[SupplierInput]) -> LedgerCalibration {
         // All null tables first, over threads: those of the suppliers' own sizes and the power
         // checkpoints every curve passes (10^(j/4) up to the first at or above the largest n).
-        let mut ns: Vec<u64> = inputs.iter().map(|s| s.first_two_counts.iter().sum()).collect();
-        let nmax = ns.iter().copied().max().unwrap_or(0);
-        let mut g = GRID_PER_DECADE;
-        while nmax > 0 && grid_n(g) <= self.opts.max_invoices {
-            ns.push(grid_n(g));
-            if grid_n(g) >= nmax {
-                break;
-            }
-            g += GRID_PER_DECADE / POWER_PER_DECADE;
-        }
+        let ns: Vec<u64> = inputs.iter().map(|s| s.first_two_counts.iter().sum()).collect();
+        let ns = self.ledger_sizes(&ns);
         self.prepare(&ns, self.threads);
         let bases: Vec<NullCalibration> = inputs.iter().map(|s| self.null_only(&s.first_two_counts)).collect();
         let ps: Vec<f64> = bases.iter().map(|b| b.mc_p_value).collect();
@@ -740,6 +732,29 @@ impl Calibrator {
         }
         let alarm_indices: Vec<usize> = adj.iter().enumerate().filter(|(_, a)| a.alarm).map(|(i, _)| i).collect();
         LedgerCalibration { correction: self.opts.correction, q, alarms: alarm_indices.len(), alarm_indices, suppliers }
+    }
+
+    /// The null-table sizes [`Calibrator::ledger`] needs for suppliers of sizes `ns` that are
+    /// not cached yet (their own brackets and the power-curve checkpoints), ascending: what
+    /// another Worker can simulate ahead and [`Calibrator::insert_table`] put in.
+    pub fn ledger_missing(&self, ns: &[u64]) -> Vec<u64> {
+        self.missing_tables(&self.ledger_sizes(ns))
+    }
+
+    /// The suppliers' sizes and the power checkpoints every curve passes (10^(j/4) up to the
+    /// first at or above the largest n).
+    fn ledger_sizes(&self, ns: &[u64]) -> Vec<u64> {
+        let mut ns = ns.to_vec();
+        let nmax = ns.iter().copied().max().unwrap_or(0);
+        let mut g = GRID_PER_DECADE;
+        while nmax > 0 && grid_n(g) <= self.opts.max_invoices {
+            ns.push(grid_n(g));
+            if grid_n(g) >= nmax {
+                break;
+            }
+            g += GRID_PER_DECADE / POWER_PER_DECADE;
+        }
+        ns
     }
 
     fn finish(
