@@ -1,0 +1,126 @@
+//! Heap memory of the native screen, phase by phase, measured by a counting global allocator
+//! (bytes requested from the allocator; not RSS, which `/usr/bin/time -f %M` gives).
+//! Usage: mem_profile FILE [--no-calibration]
+//! Prints one JSON line: rows, and per phase the heap live at its start, its peak above that,
+//! and the bytes live at its end (all in bytes; `_per_row` divided by the analysed rows).
+//! Phases follow `digitdrift screen FILE --format json`: intake fed 1 MiB reads (the reading
+//! buffer counted), every supplier's battery, calibration + ranking + the whole file + the
+//! credit notes (report::finish_screen), then the JSON text.
+use digitdrift_core::intake::{Intake, IntakeOptions};
+use digitdrift_core::report::{self, ScreenOptions};
+use std::alloc::{GlobalAlloc, Layout, System};
+use std::io::Read;
+use std::sync::atomic::{AtomicUsize, Ordering::Relaxed};
+
+struct Counting;
+static CUR: AtomicUsize = AtomicUsize::new(0);
+static PEAK: AtomicUsize = AtomicUsize::new(0);
+
+fn grew(n: usize) {
+    let c = CUR.fetch_add(n, Relaxed) + n;
+    PEAK.fetch_max(c, Relaxed);
+}
+
+unsafe impl GlobalAlloc for Counting {
+    unsafe fn alloc(&self, l: Layout) -> *mut u8 {
+        let p = System.alloc(l);
+        if !p.is_null() {
+            grew(l.size());
+        }
+        p
+    }
+    unsafe fn alloc_zeroed(&self, l: Layout) -> *mut u8 {
+        let p = System.alloc_zeroed(l);
+        if !p.is_null() {
+            grew(l.size());
+        }
+        p
+    }
+    unsafe fn dealloc(&self, p: *mut u8, l: Layout) {
+        System.dealloc(p, l);
+        CUR.fetch_sub(l.size(), Relaxed);
+    }
+    unsafe fn realloc(&self, p: *mut u8, l: Layout, new: usize) -> *mut u8 {
+        // Counted as the allocator must hold it at worst: old and new block at once (what a
+        // realloc costs in wasm linear memory, where blocks are copied, not remapped).
+        let q = System.realloc(p, l, new);
+        if !q.is_null() {
+            grew(new);
+            CUR.fetch_sub(l.size(), Relaxed);
+        }
+        q
+    }
+}
+
+#[global_allocator]
+static A: Counting = Counting;
+
+struct Phase {
+    name: &'static str,
+    start: usize,
+    peak: usize,
+    end: usize,
+}
+
+fn phase<T>(out: &mut Vec<Phase>, name: &'static str, f: impl FnOnce() -> T) -> T {
+    let start = CUR.load(Relaxed);
+    PEAK.store(start, Relaxed);
+    let r = f();
+    out.push(Phase { name, start, peak: PEAK.load(Relaxed), end: CUR.load(Relaxed) });
+    r
+}
+
+fn main() {
+    let mut args = std::env::args().skip(1);
+    let path = args.next().expect("usage: mem_profile FILE [--no-calibration]");
+    let mut sopts = ScreenOptions::default();
+    if args.next().as_deref() == Some("--no-calibration") {
+        sopts.calibration = None;
+    }
+    let mut ph = Vec::new();
+    let res = phase(&mut ph, "intake", || {
+        let mut it = Intake::new(IntakeOptions::default());
+        let mut f = std::fs::File::open(&path).expect("cannot open FILE");
+        let mut buf = vec![0u8; 1 << 20];
+        loop {
+            let k = f.read(&mut buf).expect("read failed");
+            if k == 0 {
+                break;
+            }
+            it.feed(&buf[..k]).expect("intake failed");
+        }
+        it.finish().expect("intake failed")
+    });
+    let l = &res.ledger;
+    let (n, c) = (l.invoices.len(), l.credit_notes.len());
+    let names: usize = l.suppliers.iter().map(|s| s.name.capacity() + s.key.capacity()).sum();
+    let store = (l.invoices.capacity() + l.credit_notes.capacity()) * std::mem::size_of_val(&l.invoices[..1][0]);
+    let (sup, counts) = phase(&mut ph, "supplier_batteries", || report::supplier_batteries(l, &sopts));
+    let mut cal = sopts.calibration.as_ref().map(|c| digitdrift_core::calibrate::Calibrator::new(c.clone()));
+    let rep = phase(&mut ph, "finish_screen", || report::finish_screen(l, &res.info, IntakeOptions::default().min_amount, &sopts, sup, &counts, cal.as_mut()));
+    drop(cal);
+    let json = phase(&mut ph, "json", || serde_json::to_string_pretty(&rep).unwrap());
+    let overall = ph.iter().map(|p| p.peak).max().unwrap_or(0);
+    let pr = |b: usize| b as f64 / n.max(1) as f64;
+    let phases: Vec<String> = ph
+        .iter()
+        .map(|p| {
+            format!(
+                "\"{}\":{{\"start\":{},\"peak_above_start\":{},\"end\":{},\"peak_above_start_per_row\":{:.2}}}",
+                p.name,
+                p.start,
+                p.peak - p.start,
+                p.end,
+                pr(p.peak - p.start)
+            )
+        })
+        .collect();
+    println!(
+        "{{\"analysed\":{n},\"credit_notes\":{c},\"suppliers\":{},\"names_bytes\":{names},\"invoice_store_bytes\":{store},\"invoice_store_per_row\":{:.2},\"heap_peak\":{overall},\"heap_peak_per_row\":{:.2},\"json_len\":{},{}}}",
+        l.suppliers.len(),
+        pr(store),
+        pr(overall),
+        json.len(),
+        phases.join(",")
+    );
+}
