@@ -472,10 +472,10 @@ impl Session {
                 let inv = invs[i];
                 serde_json::json!({
                     "idx": i,
-                    "line": inv.line,
+                    "line": inv.line(),
                     "supplier": sup[inv.supplier as usize].name,
                     "date": digitdrift_core::intake::format_date(inv.date),
-                    "amount": inv.amount.to_string(),
+                    "amount": ({ inv.amount }).to_string(),
                 })
             })
             .collect()

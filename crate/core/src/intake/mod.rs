@@ -1009,14 +1009,7 @@ impl Run {
                 id
             }
         };
-        let inv = Invoice {
-            amount: a,
-            invoice_hash: m.invoice.map_or(0, |c| invoice_hash(rec.field(c))),
-            supplier: id,
-            date,
-            line: line as u32,
-            flags: 0,
-        };
+        let inv = Invoice::new(a, m.invoice.map_or(0, |c| invoice_hash(rec.field(c))), id, date, line);
         if held {
             self.deferred.push(inv);
             return None;
@@ -1027,7 +1020,7 @@ impl Run {
     /// Invoice (signed amount) -> invoices, credit notes or below minimum.
     fn classify(&mut self, mut inv: Invoice) -> Option<ExclusionReason> {
         let acc = &mut self.ledger.accounting;
-        let line = inv.line as u64;
+        let line = inv.line() as u64;
         let a = inv.amount;
         if a.abs() < self.min_amount {
             acc.exclude(ExclusionReason::BelowMinimum, line);
@@ -1057,8 +1050,8 @@ impl Run {
             }
             self.classify(inv);
         }
-        self.ledger.invoices.sort_by_key(|i| i.line);
-        self.ledger.credit_notes.sort_by_key(|i| i.line);
+        self.ledger.invoices.sort_by_key(|i| i.line());
+        self.ledger.credit_notes.sort_by_key(|i| i.line());
         for e in &mut self.ledger.accounting.exclusions {
             e.rows.sort_unstable();
         }
@@ -1072,7 +1065,7 @@ impl Run {
         }
         let map: HashMap<u32, i32> = alts.into_iter().collect();
         for inv in self.ledger.invoices.iter_mut().chain(self.ledger.credit_notes.iter_mut()).chain(self.deferred.iter_mut()) {
-            if let Some(&d) = map.get(&inv.line) {
+            if let Some(&d) = map.get(&inv.line()) {
                 inv.date = d;
             }
         }
