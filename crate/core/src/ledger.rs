@@ -172,6 +172,26 @@ impl Ledger {
     pub fn invoices_of(&self, supplier: u32) -> impl Iterator<Item = &Invoice> {
         self.invoices.iter().filter(move |i| i.supplier == supplier)
     }
+    /// Invoice indices grouped per supplier, each group in file order, in one exactly sized
+    /// array (4 bytes per invoice; a counting sort by supplier id).
+    pub fn supplier_order(&self) -> SupplierOrder {
+        let k = self.suppliers.len();
+        let mut start = vec![0u32; k + 1];
+        for inv in &self.invoices {
+            start[inv.supplier as usize + 1] += 1;
+        }
+        for s in 0..k {
+            start[s + 1] += start[s];
+        }
+        let mut next = start.clone();
+        let mut idx = vec![0u32; self.invoices.len()];
+        for (i, inv) in self.invoices.iter().enumerate() {
+            let s = inv.supplier as usize;
+            idx[next[s] as usize] = i as u32;
+            next[s] += 1;
+        }
+        SupplierOrder { start, idx }
+    }
     /// Invoice indices grouped per supplier (index = supplier id), each in file order.
     pub fn by_supplier(&self) -> Vec<Vec<u32>> {
         let mut g = vec![Vec::new(); self.suppliers.len()];
@@ -179,6 +199,21 @@ impl Ledger {
             g[inv.supplier as usize].push(i as u32);
         }
         g
+    }
+}
+
+/// Invoice indices grouped by supplier ([`Ledger::supplier_order`]).
+#[derive(Clone, Debug, Default)]
+pub struct SupplierOrder {
+    /// `idx[start[s]..start[s + 1]]` are supplier s's invoices.
+    pub start: Vec<u32>,
+    pub idx: Vec<u32>,
+}
+
+impl SupplierOrder {
+    /// Supplier `s`'s invoice indices, ascending (file order).
+    pub fn of(&self, s: usize) -> &[u32] {
+        &self.idx[self.start[s] as usize..self.start[s + 1] as usize]
     }
 }
 
@@ -233,6 +268,23 @@ mod tests {
         // Lines past 2^31 - 1 are clamped, never spill into the mark.
         let i = Invoice::new(Amount(1), 0, 0, NO_DATE, 1 << 40);
         assert_eq!((i.line(), i.injected()), (LINE_MAX, false));
+    }
+    #[test]
+    fn supplier_order_groups_in_file_order() {
+        let mut l = Ledger::default();
+        for k in ["a", "b", "c"] {
+            l.suppliers.push(Supplier { name: k.into(), key: k.into() });
+        }
+        for (i, s) in [2u32, 0, 2, 2, 0].into_iter().enumerate() {
+            l.invoices.push(Invoice::new(Amount(100 + i as i64), 0, s, NO_DATE, i as u64 + 2));
+        }
+        let o = l.supplier_order();
+        let by = l.by_supplier();
+        for s in 0..3 {
+            assert_eq!(o.of(s), by[s].as_slice());
+        }
+        assert_eq!((o.of(0), o.of(1), o.of(2)), (&[1u32, 4][..], &[][..], &[0u32, 2, 3][..]));
+        assert_eq!(o.idx.capacity(), 5);
     }
     #[test]
     fn keys_fold_case_and_space() {

@@ -2,10 +2,11 @@
 //! duplicate invoices, clusters just below approval limits. Every item that lists invoices
 //! carries their indices into the population slice given to [`super::run`].
 
-use super::sort::{sort_pairs, Keyed};
+use super::sort::{sort_u64_in_place, Sorted};
+use super::Members;
 use super::BatteryOptions;
 use crate::amount::{Amount, SCALE};
-use crate::ledger::{Invoice, NO_DATE};
+use crate::ledger::NO_DATE;
 use crate::stats;
 use serde::Serialize;
 
@@ -133,40 +134,77 @@ fn capped(mut v: Vec<usize>, cap: usize) -> (Vec<usize>, bool) {
     (v, t)
 }
 
-pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &BatteryOptions) -> AmountChecks {
+pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, sorted: Sorted, opts: &BatteryOptions) -> AmountChecks {
     let n = sorted.len() as u64;
     let cap = opts.max_listed;
 
-    // Runs of equal amounts in the sorted keys.
-    let mut runs: Vec<(usize, usize)> = Vec::new(); // (start, len) with len >= 2
+    // One pass over the runs of equal amounts in the sorted keys (ascending amount): distinct
+    // amounts, the most frequent exact amounts (ties: larger amount first) and the groups of
+    // the same supplier, amount and date. No list of runs is kept.
     let mut distinct = 0u64;
+    // (start, len) of the best runs so far, best first; at most top_amounts of them.
+    let mut top: Vec<(usize, usize)> = Vec::new();
+    let better = |a: (usize, usize), b: (usize, usize)| a.1 > b.1 || (a.1 == b.1 && sorted.key(a.0) > sorted.key(b.0));
+    let mut groups: Vec<DuplicateGroup> = Vec::new();
+    let (mut sad_g, mut sad_i, mut sn_g, mut sn_i) = (0u64, 0u64, 0u64, 0u64);
+    let mut local: Vec<(u32, i32, u32)> = Vec::new();
     let mut i = 0;
     while i < sorted.len() {
+        let key = sorted.key(i);
         let mut j = i + 1;
-        while j < sorted.len() && sorted[j].key == sorted[i].key {
+        while j < sorted.len() && sorted.key(j) == key {
             j += 1;
         }
         distinct += 1;
-        if j - i >= 2 {
-            runs.push((i, j - i));
-        }
+        let (s, l) = (i, j - i);
         i = j;
+        if l < 2 {
+            continue;
+        }
+        if opts.top_amounts > 0 && (top.len() < opts.top_amounts || better((s, l), top[top.len() - 1])) {
+            let at = top.iter().position(|&t| better((s, l), t)).unwrap_or(top.len());
+            top.insert(at, (s, l));
+            top.truncate(opts.top_amounts);
+        }
+        // Same supplier, amount and date (dated invoices only).
+        local.clear();
+        for k in s..s + l {
+            let idx = sorted.idx(k);
+            let inv = invoices.at(idx as usize);
+            if inv.date != NO_DATE {
+                local.push((inv.supplier, inv.date, idx));
+            }
+        }
+        local.sort_unstable();
+        let mut a = 0;
+        while a < local.len() {
+            let mut b = a + 1;
+            while b < local.len() && local[b].0 == local[a].0 && local[b].1 == local[a].1 {
+                b += 1;
+            }
+            if b - a >= 2 {
+                sad_g += 1;
+                sad_i += (b - a) as u64;
+                let amt = Amount(key as i64);
+                groups.push(DuplicateGroup {
+                    kind: "same_amount_date",
+                    supplier: local[a].0,
+                    amount: amt,
+                    date: Some(local[a].1),
+                    count: (b - a) as u64,
+                    extra_amount: Amount(amt.0.saturating_mul((b - a - 1) as i64)),
+                    invoices: local[a..b].iter().map(|x| x.2 as usize).collect(),
+                });
+            }
+            a = b;
+        }
     }
-
-    // Most frequent exact amounts (ties: larger amount first).
-    let order = |a: &(usize, usize), b: &(usize, usize)| b.1.cmp(&a.1).then(sorted[b.0].key.cmp(&sorted[a.0].key));
-    let mut top = runs.clone();
-    if top.len() > opts.top_amounts && opts.top_amounts > 0 {
-        top.select_nth_unstable_by(opts.top_amounts - 1, order);
-    }
-    top.truncate(opts.top_amounts);
-    top.sort_by(order);
     let most_frequent = top
         .iter()
         .map(|&(s, l)| {
-            let (inv, t) = capped(sorted[s..s + l].iter().map(|k| k.idx as usize).collect(), cap);
+            let (inv, t) = capped((s..s + l).map(|k| sorted.idx(k) as usize).collect(), cap);
             FrequentAmount {
-                amount: Amount(sorted[s].key as i64),
+                amount: Amount(sorted.key(s) as i64),
                 count: l as u64,
                 share: l as f64 / n as f64,
                 invoices: inv,
@@ -174,26 +212,24 @@ pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &Batt
             }
         })
         .collect();
+    let limits = opts
+        .approval_limits
+        .iter()
+        .filter(|l| l.0 > 0)
+        .map(|&l| limit_cluster(&sorted, l, opts.limit_window, cap))
+        .collect();
+    drop(sorted);
 
-    // One sequential pass: round amounts, dates and numbers for the duplicate checks.
+    // One sequential pass: round amounts, undated and numbered invoices.
     let (mut c00, mut b100, mut c100, mut b1000, mut c1000) = (0u64, 0u64, 0u64, 0u64, 0u64);
     let (mut l00, mut l100, mut l1000) = (Vec::new(), Vec::new(), Vec::new());
-    let mut undated = 0u64;
-    // (supplier, date) per invoice, read back for the members of equal-amount runs only.
-    let mut sd: Vec<u64> = Vec::with_capacity(invoices.len());
-    // A 32-bit mix of (supplier, number): equal pairs land in one run after sorting; the rare
-    // unequal pairs sharing a mix are told apart exactly inside the run.
-    let mut numbered: Vec<Keyed> = Vec::with_capacity(invoices.len());
-    for (i, inv) in invoices.iter().enumerate() {
-        sd.push(((inv.supplier as u64) << 32) | (inv.date as u32 as u64));
+    let (mut undated, mut numbered_count) = (0u64, 0usize);
+    for i in 0..invoices.len() {
+        let inv = invoices.at(i);
         if inv.date == NO_DATE {
             undated += 1;
         }
-        if inv.invoice_hash != 0 {
-            let h = (inv.invoice_hash ^ (inv.supplier as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15))
-                .wrapping_mul(0xD6E8_FEB8_6659_FD93);
-            numbered.push(Keyed { key: h >> 32, idx: i as u32 });
-        }
+        numbered_count += (inv.invoice_hash != 0) as usize;
         let v = inv.amount.0.unsigned_abs();
         if v == 0 || v % SCALE as u64 != 0 {
             continue;
@@ -250,58 +286,33 @@ pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &Batt
         reference: ROUND_REFERENCE,
     };
 
-    // Possible duplicates.
-    let mut groups: Vec<DuplicateGroup> = Vec::new();
-    let (mut sad_g, mut sad_i, mut sn_g, mut sn_i) = (0u64, 0u64, 0u64, 0u64);
-    let mut local: Vec<(u32, i32, u32)> = Vec::new();
-    for &(s, l) in &runs {
-        local.clear();
-        for k in &sorted[s..s + l] {
-            let x = sd[k.idx as usize];
-            let date = x as u32 as i32;
-            if date != NO_DATE {
-                local.push(((x >> 32) as u32, date, k.idx));
-            }
-        }
-        local.sort_unstable();
-        let mut a = 0;
-        while a < local.len() {
-            let mut b = a + 1;
-            while b < local.len() && local[b].0 == local[a].0 && local[b].1 == local[a].1 {
-                b += 1;
-            }
-            if b - a >= 2 {
-                sad_g += 1;
-                sad_i += (b - a) as u64;
-                let amt = Amount(sorted[s].key as i64);
-                groups.push(DuplicateGroup {
-                    kind: "same_amount_date",
-                    supplier: local[a].0,
-                    amount: amt,
-                    date: Some(local[a].1),
-                    count: (b - a) as u64,
-                    extra_amount: Amount(amt.0.saturating_mul((b - a - 1) as i64)),
-                    invoices: local[a..b].iter().map(|x| x.2 as usize).collect(),
-                });
-            }
-            a = b;
+    // Same supplier and invoice number. A 32-bit mix of (supplier, number) above the member's
+    // index in one word, sorted in place: equal pairs land in one run (in index order); the rare
+    // unequal pairs sharing a mix are told apart exactly inside the run.
+    let unnumbered = invoices.len() as u64 - numbered_count as u64;
+    let mut numbered: Vec<u64> = Vec::with_capacity(numbered_count);
+    for i in 0..invoices.len() {
+        let inv = invoices.at(i);
+        if inv.invoice_hash != 0 {
+            let h = (inv.invoice_hash ^ (inv.supplier as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15))
+                .wrapping_mul(0xD6E8_FEB8_6659_FD93);
+            numbered.push((h >> 32) << 32 | i as u64);
         }
     }
-    drop(sd);
-    let unnumbered = invoices.len() as u64 - numbered.len() as u64;
-    let numbered = sort_pairs(numbered);
+    sort_u64_in_place(&mut numbered);
     let mut local2: Vec<(u32, u64, u32)> = Vec::new();
     let mut i = 0;
     while i < numbered.len() {
         let mut j = i + 1;
-        while j < numbered.len() && numbered[j].key == numbered[i].key {
+        while j < numbered.len() && numbered[j] >> 32 == numbered[i] >> 32 {
             j += 1;
         }
         if j - i >= 2 {
             local2.clear();
-            local2.extend(numbered[i..j].iter().map(|k| {
-                let inv = invoices[k.idx as usize];
-                (inv.supplier, inv.invoice_hash, k.idx)
+            local2.extend(numbered[i..j].iter().map(|&x| {
+                let idx = x as u32;
+                let inv = invoices.at(idx as usize);
+                (inv.supplier, inv.invoice_hash, idx)
             }));
             local2.sort_unstable();
             let mut a = 0;
@@ -314,7 +325,7 @@ pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &Batt
                     sn_g += 1;
                     sn_i += (b - a) as u64;
                     let idx: Vec<usize> = local2[a..b].iter().map(|x| x.2 as usize).collect();
-                    let amts: Vec<i64> = idx.iter().map(|&x| invoices[x].amount.0.saturating_abs()).collect();
+                    let amts: Vec<i64> = idx.iter().map(|&x| invoices.at(x).amount.0.saturating_abs()).collect();
                     let max = *amts.iter().max().unwrap();
                     let total: i64 = amts.iter().fold(0i64, |s, &x| s.saturating_add(x));
                     groups.push(DuplicateGroup {
@@ -332,6 +343,7 @@ pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &Batt
         }
         i = j;
     }
+    drop(numbered);
     groups.sort_by(|a, b| b.extra_amount.cmp(&a.extra_amount).then(a.invoices.cmp(&b.invoices)));
     let groups_truncated = groups.len() > opts.max_duplicate_groups;
     groups.truncate(opts.max_duplicate_groups);
@@ -346,17 +358,10 @@ pub(crate) fn amount_checks(invoices: &[&Invoice], sorted: &[Keyed], opts: &Batt
         groups_truncated,
     };
 
-    let limits = opts
-        .approval_limits
-        .iter()
-        .filter(|l| l.0 > 0)
-        .map(|&l| limit_cluster(sorted, l, opts.limit_window, cap))
-        .collect();
-
     AmountChecks { n, distinct_amounts: distinct, most_frequent, round, duplicates, limits, note: AMOUNT_NOTE }
 }
 
-fn limit_cluster(sorted: &[Keyed], limit: Amount, window: f64, cap: usize) -> LimitCluster {
+fn limit_cluster(sorted: &Sorted, limit: Amount, window: f64, cap: usize) -> LimitCluster {
     let w = window.clamp(1e-6, 0.9);
     let lv = limit.0 as f64;
     let low = ((lv * (1.0 - w)).round() as u64).max(1);
@@ -364,7 +369,7 @@ fn limit_cluster(sorted: &[Keyed], limit: Amount, window: f64, cap: usize) -> Li
     let r = (hi as f64 / low as f64).powi(3);
     let band_low = ((low as f64 / r).round() as u64).max(1);
     let band_high = (hi as f64 * r).round() as u64;
-    let pos = |x: u64| sorted.partition_point(|k| k.key < x);
+    let pos = |x: u64| sorted.lower_bound(x);
     let (p_bl, p_l, p_h, p_bh) = (pos(band_low), pos(low), pos(hi), pos(band_high));
     let count = (p_h - p_l) as u64;
     let below = (p_l - p_bl) as u64;
@@ -374,7 +379,7 @@ fn limit_cluster(sorted: &[Keyed], limit: Amount, window: f64, cap: usize) -> Li
     let share = lw / (band_high as f64 / band_low as f64).ln();
     // Expected from the neighbours alone (density per log unit times the window's log width).
     let expected = (below + above) as f64 * lw / ((low as f64 / band_low as f64).ln() + (band_high as f64 / hi as f64).ln());
-    let (inv, t) = capped(sorted[p_l..p_h].iter().map(|k| k.idx as usize).collect(), cap);
+    let (inv, t) = capped((p_l..p_h).map(|k| sorted.idx(k) as usize).collect(), cap);
     LimitCluster {
         limit,
         window_low: Amount(low as i64),

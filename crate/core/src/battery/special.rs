@@ -1,7 +1,7 @@
 //! Summation test, second-order test and distortion factor.
 
 use super::digits::DigitTest;
-use super::sort::Keyed;
+use super::sort::Sorted;
 use crate::amount::{Amount, SCALE};
 use crate::benford;
 use crate::stats;
@@ -130,12 +130,12 @@ pub struct SecondOrder {
     pub source: &'static str,
 }
 
-pub(crate) fn second_order(sorted: &[Keyed]) -> SecondOrder {
+pub(crate) fn second_order(sorted: &Sorted) -> SecondOrder {
     let mut c = vec![0u64; 90];
     let mut zeros = 0u64;
     let mut tiny = 0u64;
-    for w in sorted.windows(2) {
-        let d = w[1].key - w[0].key;
+    for i in 1..sorted.len() {
+        let d = sorted.key(i) - sorted.key(i - 1);
         if d == 0 {
             zeros += 1;
             continue;
