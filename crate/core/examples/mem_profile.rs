@@ -41,12 +41,17 @@ unsafe impl GlobalAlloc for Counting {
         CUR.fetch_sub(l.size(), Relaxed);
     }
     unsafe fn realloc(&self, p: *mut u8, l: Layout, new: usize) -> *mut u8 {
-        // Counted as the allocator must hold it at worst: old and new block at once (what a
-        // realloc costs in wasm linear memory, where blocks are copied, not remapped).
+        // A growing realloc is counted as the allocator must hold it at worst: old and new
+        // block at once (what it costs in wasm linear memory, where blocks are copied, not
+        // remapped). A shrinking one is done in place (glibc and dlmalloc split the block).
         let q = System.realloc(p, l, new);
         if !q.is_null() {
-            grew(new);
-            CUR.fetch_sub(l.size(), Relaxed);
+            if new > l.size() {
+                grew(new);
+                CUR.fetch_sub(l.size(), Relaxed);
+            } else {
+                CUR.fetch_sub(l.size() - new, Relaxed);
+            }
         }
         q
     }
@@ -81,6 +86,8 @@ fn main() {
     let res = phase(&mut ph, "intake", || {
         let mut it = Intake::new(IntakeOptions::default());
         let mut f = std::fs::File::open(&path).expect("cannot open FILE");
+        // As the CLI does (digitdrift screen FILE): the file's size reserves the store.
+        it.set_size_hint(f.metadata().expect("metadata").len());
         let mut buf = vec![0u8; 1 << 20];
         loop {
             let k = f.read(&mut buf).expect("read failed");

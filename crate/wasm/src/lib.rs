@@ -131,6 +131,15 @@ impl Session {
         Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None, trial_last: None, pending: None })
     }
 
+    /// The file's size in bytes (`File.size`), before the first `feed`: the invoice store is
+    /// reserved from it once the first MiB is in, instead of growing by copies.
+    #[wasm_bindgen(js_name = setSizeHint)]
+    pub fn set_size_hint(&mut self, bytes: f64) {
+        if let Some(i) = self.intake.as_mut() {
+            i.set_size_hint(bytes.max(0.0) as u64);
+        }
+    }
+
     /// Feed the next chunk of the file, in order.
     pub fn feed(&mut self, chunk: &[u8]) -> Result<(), JsValue> {
         self.fingerprint.update(chunk);
@@ -571,6 +580,20 @@ pub fn preview(head: &[u8], options: JsValue) -> Result<JsValue, JsValue> {
     match digitdrift_core::intake::preview(head, &o) {
         Ok(p) => to_js(&serde_json::json!({"ok": true, "preview": p})),
         Err(e) => to_js(&serde_json::json!({"ok": false, "error": e, "message": e.to_string()})),
+    }
+}
+
+/// Size of this module's wasm linear memory in bytes. Linear memory only grows, so after a
+/// screen it is the Worker's peak (for the browser benchmark).
+#[wasm_bindgen(js_name = wasmMemoryBytes)]
+pub fn wasm_memory_bytes() -> f64 {
+    #[cfg(target_arch = "wasm32")]
+    {
+        (core::arch::wasm32::memory_size(0) * 65536) as f64
+    }
+    #[cfg(not(target_arch = "wasm32"))]
+    {
+        0.0
     }
 }
 

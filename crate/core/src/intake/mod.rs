@@ -258,11 +258,21 @@ pub struct Intake {
     opts: IntakeOptions,
     bytes_fed: u64,
     state: State,
+    /// The file's size in bytes, when known ([`Intake::set_size_hint`]).
+    size_hint: Option<u64>,
 }
 
 impl Intake {
     pub fn new(opts: IntakeOptions) -> Intake {
-        Intake { opts, bytes_fed: 0, state: State::Head(Vec::new()) }
+        Intake { opts, bytes_fed: 0, state: State::Head(Vec::new()), size_hint: None }
+    }
+
+    /// The whole file's size in bytes, if known before feeding (a file on disk, a browser
+    /// `File`). Once the first MiB is read, the invoice store is reserved for the rows that
+    /// many bytes should hold (plus 1/32), so it is not copied while it grows; without a hint,
+    /// or past the estimate, it grows by 1/8 at a time (see [`push_bounded`]).
+    pub fn set_size_hint(&mut self, total_bytes: u64) {
+        self.size_hint = Some(total_bytes);
     }
 
     /// Feed the next chunk. Chunks may split characters, quoted fields or line breaks anywhere.
@@ -292,6 +302,12 @@ impl Intake {
         if let Err(e) = &r {
             self.state = State::Failed(e.clone());
         }
+        if let (State::Run(run), Some(total)) = (&mut self.state, self.size_hint) {
+            if !run.reserved && (self.bytes_fed >= RESERVE_AFTER || self.bytes_fed >= total) {
+                run.reserved = true;
+                run.reserve_for(self.bytes_fed, total);
+            }
+        }
         r
     }
 
@@ -319,6 +335,20 @@ impl Intake {
         };
         run.finish()
     }
+}
+
+/// Bytes read before the invoice store is reserved from the size hint.
+const RESERVE_AFTER: u64 = 1 << 20;
+
+/// Push onto an invoice store that grows by 1/8 of its length at a time (at least 1,024) rather
+/// than doubling, so its capacity stays within about 12.5 % of its length. (Natively a large
+/// realloc is a remap; in wasm linear memory it is a copy, old and new block at once.)
+#[inline]
+pub(crate) fn push_bounded(v: &mut Vec<Invoice>, inv: Invoice) {
+    if v.len() == v.capacity() {
+        v.reserve_exact((v.len() / 8).max(1024));
+    }
+    v.push(inv);
 }
 
 /// What the head of the file decided.
@@ -362,6 +392,8 @@ struct Run {
     /// Rows whose amount is ambiguous while the convention is undecided (thousands reading,
     /// signed).
     deferred: Vec<Invoice>,
+    /// The store was reserved from the size hint (once).
+    reserved: bool,
     /// (line, month-first reading) of rows whose date was read day-first provisionally.
     date_alts: Vec<(u32, i32)>,
     amb_dec: Vec<String>,
@@ -697,6 +729,7 @@ impl Run {
             raw_map: intern::Interner::default(),
             key_map: HashMap::new(),
             deferred: Vec::new(),
+            reserved: false,
             date_alts: Vec::new(),
             amb_dec: Vec::new(),
             amb_date: Vec::new(),
@@ -1029,12 +1062,26 @@ impl Run {
         inv.amount = a.abs();
         if a.is_negative() {
             acc.exclude(ExclusionReason::CreditNote, line);
-            self.ledger.credit_notes.push(inv);
+            push_bounded(&mut self.ledger.credit_notes, inv);
             return Some(ExclusionReason::CreditNote);
         }
         acc.analyse();
-        self.ledger.invoices.push(inv);
+        push_bounded(&mut self.ledger.invoices, inv);
         None
+    }
+
+    /// Reserve the stores for the rows `total` bytes should hold, from the rows in the first
+    /// `fed` bytes, plus 1/32.
+    fn reserve_for(&mut self, fed: u64, total: u64) {
+        let scale = total as f64 / fed.max(1) as f64 * (1.0 + 1.0 / 32.0);
+        // Rows held back (decimal convention undecided) are counted as invoices.
+        let held = self.deferred.len();
+        for (v, extra) in [(&mut self.ledger.invoices, held), (&mut self.ledger.credit_notes, 0)] {
+            let want = ((v.len() + extra) as f64 * scale).ceil() as usize + 16;
+            if want > v.capacity() {
+                v.reserve_exact(want - v.len());
+            }
+        }
     }
 
     fn set_decimal(&mut self, c: DecimalConvention) {
@@ -1050,8 +1097,9 @@ impl Run {
             }
             self.classify(inv);
         }
-        self.ledger.invoices.sort_by_key(|i| i.line());
-        self.ledger.credit_notes.sort_by_key(|i| i.line());
+        // Every invoice has its own line: an in-place sort gives the one order.
+        self.ledger.invoices.sort_unstable_by_key(|i| i.line());
+        self.ledger.credit_notes.sort_unstable_by_key(|i| i.line());
         for e in &mut self.ledger.accounting.exclusions {
             e.rows.sort_unstable();
         }
@@ -1167,7 +1215,10 @@ impl Run {
             date_order,
             warnings,
         };
-        let ledger = std::mem::take(&mut self.ledger);
+        let mut ledger = std::mem::take(&mut self.ledger);
+        // Give back what the estimate or the last growth step left unused (in place).
+        ledger.invoices.shrink_to_fit();
+        ledger.credit_notes.shrink_to_fit();
         Ok(IntakeResult { ledger, info })
     }
 }
