@@ -2,7 +2,8 @@
 // (the page reads it through the Worker's chunked File.slice intake), and prints the Worker's wall
 // time for intake + full screen (digit tests and calibration), the page's JS heap, and the peak
 // resident memory of the tab's renderer process (VmHWM; it holds the Worker, its wasm linear
-// memory and the JS heaps), found among this process's own descendants only.
+// memory and the JS heaps), found among this process's own descendants only, and the size of the
+// screening Worker's wasm linear memory after the screen (its peak: linear memory never shrinks).
 // Usage: node bench/browser.mjs FILE...
 //
 // Intake-only mode: node bench/browser.mjs --intake-only [--runs N] FILE...
@@ -125,8 +126,9 @@ for (const file of argv) {
   const wall = (Date.now() - t0) / 1000;
   const heap = await page.evaluate(() => (performance.memory ? performance.memory.usedJSHeapSize : 0));
   const rows = await page.evaluate(() => window.digitdrift.report.rows);
+  const wasmMem = await page.evaluate(() => window.digitdrift.wasmMemoryBytes || 0);
   const mb = statSync(file).size / 1e6;
-  console.log(JSON.stringify({ file, mb, rows_read: rows.read, rows_analysed: rows.analysed, browser_seconds: wall, browser_mb_per_s: mb / wall, page_js_heap_mb: heap / 1e6, renderer_peak_rss_mb: rendererPeakMb() }));
+  console.log(JSON.stringify({ file, mb, rows_read: rows.read, rows_analysed: rows.analysed, browser_seconds: wall, browser_mb_per_s: mb / wall, page_js_heap_mb: heap / 1e6, renderer_peak_rss_mb: rendererPeakMb(), worker_wasm_memory_mb: wasmMem / 1048576 }));
   await context.close();
 }
 await browser.close();
