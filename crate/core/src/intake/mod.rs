@@ -1227,6 +1227,63 @@ impl Run {
 mod tests {
     use super::*;
 
+    /// The store grows by 1/8 (at least 1,024), never doubling: capacity stays within 12.5 %
+    /// (+1,024) of the length at every push. (The bound is our own memory target, issue 9.)
+    #[test]
+    fn store_growth_is_bounded() {
+        let mut v: Vec<Invoice> = Vec::new();
+        let mut grows = 0;
+        for i in 0..300_000u64 {
+            let cap = v.capacity();
+            push_bounded(&mut v, Invoice::new(Amount(i as i64 + 1), 0, 0, crate::ledger::NO_DATE, i + 2));
+            grows += (v.capacity() != cap) as u32;
+            assert!(v.capacity() <= v.len() + v.len() / 8 + 1024, "len {} cap {}", v.len(), v.capacity());
+        }
+        assert!(grows > 10, "grew {grows} times");
+    }
+
+    /// With the file's size known, the store is reserved once from the first MiB and ends
+    /// exactly sized; without it, it also ends exactly sized. Same rows either way.
+    #[test]
+    fn size_hint_reserves_once_and_store_ends_exact() {
+        let mut text = String::from("Supplier,Invoice No,Date,Amount\n");
+        for i in 0..60_000u32 {
+            text.push_str(&format!("Supplier {},N{i},2024-03-{:02},{}.{:02}\n", i % 7, 1 + i % 28, 10 + (i * 7919) % 90_000, i % 100));
+            if i % 10 == 0 {
+                text.push_str(&format!("Supplier 1,C{i},2024-04-01,-{}.00\n", 15 + i % 50));
+            }
+        }
+        let bytes = text.as_bytes();
+        let run = |hint: bool| {
+            let mut it = Intake::new(IntakeOptions::default());
+            if hint {
+                it.set_size_hint(bytes.len() as u64);
+            }
+            let mut caps = Vec::new();
+            for c in bytes.chunks(1 << 16) {
+                it.feed(c).unwrap();
+                if let State::Run(r) = &it.state {
+                    caps.push(r.ledger.invoices.capacity());
+                }
+            }
+            (it.finish().unwrap().ledger, caps)
+        };
+        let (with, caps) = run(true);
+        let (without, _) = run(false);
+        assert_eq!(with.invoices, without.invoices);
+        assert_eq!(with.credit_notes, without.credit_notes);
+        assert_eq!((with.invoices.len(), with.credit_notes.len()), (60_000, 6_000));
+        for l in [&with, &without] {
+            assert_eq!(l.invoices.capacity(), l.invoices.len());
+            assert_eq!(l.credit_notes.capacity(), l.credit_notes.len());
+        }
+        // Reserved once the first MiB was in (16 chunks of 64 KiB), then not grown again: the
+        // rows are alike, so the estimate (+1/32) covers the file.
+        let after = &caps[16..];
+        assert!(after.windows(2).all(|w| w[0] == w[1]), "{caps:?}");
+        assert!(after[0] >= 60_000 && after[0] <= 60_000 + 60_000 / 16, "{}", after[0]);
+    }
+
     #[test]
     fn epoch_days() {
         // Unix epoch; 2000-03-01 is day 11017 (Hinnant's paper uses these as checks).
