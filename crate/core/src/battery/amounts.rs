@@ -134,91 +134,104 @@ fn capped(mut v: Vec<usize>, cap: usize) -> (Vec<usize>, bool) {
     (v, t)
 }
 
-pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, sorted: Sorted, opts: &BatteryOptions) -> AmountChecks {
-    let n = sorted.len() as u64;
-    let cap = opts.max_listed;
+/// The runs of equal amounts, fed the sorted amounts window by window (ascending): distinct
+/// amounts, the most frequent exact amounts (ties: larger amount first) with their members,
+/// and the groups of the same supplier, amount and date. No list of runs is kept.
+#[derive(Default)]
+pub(crate) struct RunsAcc {
+    n: u64,
+    distinct: u64,
+    /// (count, amount, capped members, truncated), best first; at most top_amounts.
+    top: Vec<(usize, u64, Vec<usize>, bool)>,
+    groups: Vec<DuplicateGroup>,
+    sad_g: u64,
+    sad_i: u64,
+    local: Vec<(u32, i32, u32)>,
+}
 
-    // One pass over the runs of equal amounts in the sorted keys (ascending amount): distinct
-    // amounts, the most frequent exact amounts (ties: larger amount first) and the groups of
-    // the same supplier, amount and date. No list of runs is kept.
-    let mut distinct = 0u64;
-    // (start, len) of the best runs so far, best first; at most top_amounts of them.
-    let mut top: Vec<(usize, usize)> = Vec::new();
-    let better = |a: (usize, usize), b: (usize, usize)| a.1 > b.1 || (a.1 == b.1 && sorted.key(a.0) > sorted.key(b.0));
-    let mut groups: Vec<DuplicateGroup> = Vec::new();
-    let (mut sad_g, mut sad_i, mut sn_g, mut sn_i) = (0u64, 0u64, 0u64, 0u64);
-    let mut local: Vec<(u32, i32, u32)> = Vec::new();
-    let mut i = 0;
-    while i < sorted.len() {
-        let key = sorted.key(i);
-        let mut j = i + 1;
-        while j < sorted.len() && sorted.key(j) == key {
-            j += 1;
-        }
-        distinct += 1;
-        let (s, l) = (i, j - i);
-        i = j;
-        if l < 2 {
-            continue;
-        }
-        if opts.top_amounts > 0 && (top.len() < opts.top_amounts || better((s, l), top[top.len() - 1])) {
-            let at = top.iter().position(|&t| better((s, l), t)).unwrap_or(top.len());
-            top.insert(at, (s, l));
-            top.truncate(opts.top_amounts);
-        }
-        // Same supplier, amount and date (dated invoices only).
-        local.clear();
-        for k in s..s + l {
-            let idx = sorted.idx(k);
-            let inv = invoices.at(idx as usize);
-            if inv.date != NO_DATE {
-                local.push((inv.supplier, inv.date, idx));
+impl RunsAcc {
+    pub fn feed<M: Members + ?Sized>(&mut self, invoices: &M, sorted: &Sorted, opts: &BatteryOptions) {
+        self.n += sorted.len() as u64;
+        let better = |l: usize, k: u64, t: &(usize, u64, Vec<usize>, bool)| l > t.0 || (l == t.0 && k > t.1);
+        let mut i = 0;
+        while i < sorted.len() {
+            let key = sorted.key(i);
+            let mut j = i + 1;
+            while j < sorted.len() && sorted.key(j) == key {
+                j += 1;
             }
-        }
-        local.sort_unstable();
-        let mut a = 0;
-        while a < local.len() {
-            let mut b = a + 1;
-            while b < local.len() && local[b].0 == local[a].0 && local[b].1 == local[a].1 {
-                b += 1;
+            self.distinct += 1;
+            let (s, l) = (i, j - i);
+            i = j;
+            if l < 2 {
+                continue;
             }
-            if b - a >= 2 {
-                sad_g += 1;
-                sad_i += (b - a) as u64;
-                let amt = Amount(key as i64);
-                groups.push(DuplicateGroup {
-                    kind: "same_amount_date",
-                    supplier: local[a].0,
-                    amount: amt,
-                    date: Some(local[a].1),
-                    count: (b - a) as u64,
-                    extra_amount: Amount(amt.0.saturating_mul((b - a - 1) as i64)),
-                    invoices: local[a..b].iter().map(|x| x.2 as usize).collect(),
-                });
+            let top = &mut self.top;
+            if opts.top_amounts > 0 && (top.len() < opts.top_amounts || better(l, key, &top[top.len() - 1])) {
+                let at = top.iter().position(|t| better(l, key, t)).unwrap_or(top.len());
+                // Members of a run are in index order: the first cap + 1 decide the list.
+                let (inv, t) = capped((s..s + l).take(opts.max_listed + 1).map(|k| sorted.idx(k) as usize).collect(), opts.max_listed);
+                top.insert(at, (l, key, inv, t));
+                top.truncate(opts.top_amounts);
             }
-            a = b;
+            // Same supplier, amount and date (dated invoices only).
+            let local = &mut self.local;
+            local.clear();
+            for k in s..s + l {
+                let idx = sorted.idx(k);
+                let inv = invoices.at(idx as usize);
+                if inv.date != NO_DATE {
+                    local.push((inv.supplier, inv.date, idx));
+                }
+            }
+            local.sort_unstable();
+            let mut a = 0;
+            while a < local.len() {
+                let mut b = a + 1;
+                while b < local.len() && local[b].0 == local[a].0 && local[b].1 == local[a].1 {
+                    b += 1;
+                }
+                if b - a >= 2 {
+                    self.sad_g += 1;
+                    self.sad_i += (b - a) as u64;
+                    let amt = Amount(key as i64);
+                    self.groups.push(DuplicateGroup {
+                        kind: "same_amount_date",
+                        supplier: local[a].0,
+                        amount: amt,
+                        date: Some(local[a].1),
+                        count: (b - a) as u64,
+                        extra_amount: Amount(amt.0.saturating_mul((b - a - 1) as i64)),
+                        invoices: local[a..b].iter().map(|x| x.2 as usize).collect(),
+                    });
+                }
+                a = b;
+            }
         }
     }
+}
+
+/// The amount checks from the runs (fed every window) and passes over the population.
+pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, opts: &BatteryOptions) -> AmountChecks {
+    let RunsAcc { n, distinct, top, mut groups, sad_g, sad_i, .. } = runs;
+    let cap = opts.max_listed;
+    let (mut sn_g, mut sn_i) = (0u64, 0u64);
     let most_frequent = top
-        .iter()
-        .map(|&(s, l)| {
-            let (inv, t) = capped((s..s + l).map(|k| sorted.idx(k) as usize).collect(), cap);
-            FrequentAmount {
-                amount: Amount(sorted.key(s) as i64),
-                count: l as u64,
-                share: l as f64 / n as f64,
-                invoices: inv,
-                invoices_truncated: t,
-            }
+        .into_iter()
+        .map(|(count, key, inv, t)| FrequentAmount {
+            amount: Amount(key as i64),
+            count: count as u64,
+            share: count as f64 / n as f64,
+            invoices: inv,
+            invoices_truncated: t,
         })
         .collect();
     let limits = opts
         .approval_limits
         .iter()
         .filter(|l| l.0 > 0)
-        .map(|&l| limit_cluster(&sorted, l, opts.limit_window, cap))
+        .map(|&l| limit_cluster(invoices, l, opts.limit_window, cap))
         .collect();
-    drop(sorted);
 
     // One sequential pass: round amounts, undated and numbered invoices.
     let (mut c00, mut b100, mut c100, mut b1000, mut c1000) = (0u64, 0u64, 0u64, 0u64, 0u64);
@@ -289,59 +302,71 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, sorted: Sorted, o
     // Same supplier and invoice number. A 32-bit mix of (supplier, number) above the member's
     // index in one word, sorted in place: equal pairs land in one run (in index order); the rare
     // unequal pairs sharing a mix are told apart exactly inside the run.
+    // Large populations go in 2^k windows by the mix's top k bits (the mix is spread evenly, so
+    // each holds about an eighth of the numbered invoices at most), ascending.
     let unnumbered = invoices.len() as u64 - numbered_count as u64;
-    let mut numbered: Vec<u64> = Vec::with_capacity(numbered_count);
-    for i in 0..invoices.len() {
-        let inv = invoices.at(i);
-        if inv.invoice_hash != 0 {
-            let h = (inv.invoice_hash ^ (inv.supplier as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15))
-                .wrapping_mul(0xD6E8_FEB8_6659_FD93);
-            numbered.push((h >> 32) << 32 | i as u64);
-        }
+    let per = (numbered_count / 8).max(super::WINDOW_MIN);
+    let mut k = 0u32;
+    while k < 12 && numbered_count >> k > per {
+        k += 1;
     }
-    sort_u64_in_place(&mut numbered);
     let mut local2: Vec<(u32, u64, u32)> = Vec::new();
-    let mut i = 0;
-    while i < numbered.len() {
-        let mut j = i + 1;
-        while j < numbered.len() && numbered[j] >> 32 == numbered[i] >> 32 {
-            j += 1;
-        }
-        if j - i >= 2 {
-            local2.clear();
-            local2.extend(numbered[i..j].iter().map(|&x| {
-                let idx = x as u32;
-                let inv = invoices.at(idx as usize);
-                (inv.supplier, inv.invoice_hash, idx)
-            }));
-            local2.sort_unstable();
-            let mut a = 0;
-            while a < local2.len() {
-                let mut b = a + 1;
-                while b < local2.len() && local2[b].0 == local2[a].0 && local2[b].1 == local2[a].1 {
-                    b += 1;
+    let mut numbered: Vec<u64> = Vec::new();
+    for w in 0..1u64 << k {
+        numbered.clear();
+        for i in 0..invoices.len() {
+            let inv = invoices.at(i);
+            if inv.invoice_hash != 0 {
+                let h = (inv.invoice_hash ^ (inv.supplier as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15))
+                    .wrapping_mul(0xD6E8_FEB8_6659_FD93);
+                if k == 0 || h >> (64 - k) == w {
+                    numbered.push((h >> 32) << 32 | i as u64);
                 }
-                if b - a >= 2 {
-                    sn_g += 1;
-                    sn_i += (b - a) as u64;
-                    let idx: Vec<usize> = local2[a..b].iter().map(|x| x.2 as usize).collect();
-                    let amts: Vec<i64> = idx.iter().map(|&x| invoices.at(x).amount.0.saturating_abs()).collect();
-                    let max = *amts.iter().max().unwrap();
-                    let total: i64 = amts.iter().fold(0i64, |s, &x| s.saturating_add(x));
-                    groups.push(DuplicateGroup {
-                        kind: "same_number",
-                        supplier: local2[a].0,
-                        amount: Amount(max),
-                        date: None,
-                        count: (b - a) as u64,
-                        extra_amount: Amount(total.saturating_sub(amts[0])),
-                        invoices: idx,
-                    });
-                }
-                a = b;
             }
         }
-        i = j;
+        sort_u64_in_place(&mut numbered);
+        let mut i = 0;
+        while i < numbered.len() {
+            let mut j = i + 1;
+            while j < numbered.len() && numbered[j] >> 32 == numbered[i] >> 32 {
+                j += 1;
+            }
+            if j - i >= 2 {
+                local2.clear();
+                local2.extend(numbered[i..j].iter().map(|&x| {
+                    let idx = x as u32;
+                    let inv = invoices.at(idx as usize);
+                    (inv.supplier, inv.invoice_hash, idx)
+                }));
+                local2.sort_unstable();
+                let mut a = 0;
+                while a < local2.len() {
+                    let mut b = a + 1;
+                    while b < local2.len() && local2[b].0 == local2[a].0 && local2[b].1 == local2[a].1 {
+                        b += 1;
+                    }
+                    if b - a >= 2 {
+                        sn_g += 1;
+                        sn_i += (b - a) as u64;
+                        let idx: Vec<usize> = local2[a..b].iter().map(|x| x.2 as usize).collect();
+                        let amts: Vec<i64> = idx.iter().map(|&x| invoices.at(x).amount.0.saturating_abs()).collect();
+                        let max = *amts.iter().max().unwrap();
+                        let total: i64 = amts.iter().fold(0i64, |s, &x| s.saturating_add(x));
+                        groups.push(DuplicateGroup {
+                            kind: "same_number",
+                            supplier: local2[a].0,
+                            amount: Amount(max),
+                            date: None,
+                            count: (b - a) as u64,
+                            extra_amount: Amount(total.saturating_sub(amts[0])),
+                            invoices: idx,
+                        });
+                    }
+                    a = b;
+                }
+            }
+            i = j;
+        }
     }
     drop(numbered);
     groups.sort_by(|a, b| b.extra_amount.cmp(&a.extra_amount).then(a.invoices.cmp(&b.invoices)));
@@ -361,7 +386,9 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, sorted: Sorted, o
     AmountChecks { n, distinct_amounts: distinct, most_frequent, round, duplicates, limits, note: AMOUNT_NOTE }
 }
 
-fn limit_cluster(sorted: &Sorted, limit: Amount, window: f64, cap: usize) -> LimitCluster {
+/// Counts by one pass over the population: `#keys in [x, y)` is what positions in the sorted
+/// amounts would give (zero amounts never count: every band starts at 1 or more).
+fn limit_cluster<M: Members + ?Sized>(invoices: &M, limit: Amount, window: f64, cap: usize) -> LimitCluster {
     let w = window.clamp(1e-6, 0.9);
     let lv = limit.0 as f64;
     let low = ((lv * (1.0 - w)).round() as u64).max(1);
@@ -369,17 +396,27 @@ fn limit_cluster(sorted: &Sorted, limit: Amount, window: f64, cap: usize) -> Lim
     let r = (hi as f64 / low as f64).powi(3);
     let band_low = ((low as f64 / r).round() as u64).max(1);
     let band_high = (hi as f64 * r).round() as u64;
-    let pos = |x: u64| sorted.lower_bound(x);
-    let (p_bl, p_l, p_h, p_bh) = (pos(band_low), pos(low), pos(hi), pos(band_high));
-    let count = (p_h - p_l) as u64;
-    let below = (p_l - p_bl) as u64;
-    let above = (p_bh - p_h) as u64;
+    let (mut count, mut below, mut above) = (0u64, 0u64, 0u64);
+    let mut list = Vec::new();
+    for i in 0..invoices.len() {
+        let v = invoices.at(i).amount.0.unsigned_abs();
+        if v >= low && v < hi {
+            count += 1;
+            if list.len() <= cap {
+                list.push(i);
+            }
+        } else if v >= band_low && v < low {
+            below += 1;
+        } else if v >= hi && v < band_high {
+            above += 1;
+        }
+    }
     let total = count + below + above;
     let lw = (hi as f64 / low as f64).ln();
     let share = lw / (band_high as f64 / band_low as f64).ln();
     // Expected from the neighbours alone (density per log unit times the window's log width).
     let expected = (below + above) as f64 * lw / ((low as f64 / band_low as f64).ln() + (band_high as f64 / hi as f64).ln());
-    let (inv, t) = capped((p_l..p_h).map(|k| sorted.idx(k) as usize).collect(), cap);
+    let (inv, t) = capped(list, cap);
     LimitCluster {
         limit,
         window_low: Amount(low as i64),

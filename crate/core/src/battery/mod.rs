@@ -36,6 +36,7 @@ use crate::benford;
 use crate::ledger::Invoice;
 use serde::Serialize;
 use sort::Sorted;
+pub use sort::WINDOW_MIN;
 use std::fmt;
 use std::str::FromStr;
 
@@ -336,10 +337,14 @@ impl Members for Indexed<'_> {
     }
 }
 
-/// Amounts as sort keys (|amount| in amount units), zero amounts left out, sorted by amount
-/// (ties in index order), sorted in place (8 bytes per member in the usual case).
-pub(crate) fn sorted_amounts<M: Members + ?Sized>(invoices: &M) -> Sorted {
-    Sorted::of(invoices.len(), |i| invoices.at(i).amount.0.unsigned_abs())
+/// Calls `f` with a population's nonzero amounts as sort keys (|amount| in amount units),
+/// sorted by amount (ties in index order), window by window in ascending order: each window
+/// holds about an eighth of the members at most ([`sort::windows`]), 8 bytes each.
+pub(crate) fn for_each_sorted_window<M: Members + ?Sized>(invoices: &M, mut f: impl FnMut(&Sorted)) {
+    let amount = |i: usize| invoices.at(i).amount.0.unsigned_abs();
+    for (lo, hi, _) in sort::windows(invoices.len(), amount) {
+        f(&Sorted::of_buckets(invoices.len(), amount, lo, hi));
+    }
 }
 
 /// Run the selected tests over one population.
@@ -398,12 +403,21 @@ pub fn run<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions) -> Battery 
         b.distortion = Some(dist_acc.finish());
     }
     if t.second_order || t.amounts {
-        let sorted = sorted_amounts(invoices);
+        let mut so = special::SecondOrderAcc::default();
+        let mut runs = amounts::RunsAcc::default();
+        for_each_sorted_window(invoices, |sorted| {
+            if t.second_order {
+                so.feed(sorted);
+            }
+            if t.amounts {
+                runs.feed(invoices, sorted, opts);
+            }
+        });
         if t.second_order {
-            b.second_order = Some(special::second_order(&sorted));
+            b.second_order = Some(so.finish());
         }
         if t.amounts {
-            b.amount_checks = Some(amounts::amount_checks(invoices, sorted, opts));
+            b.amount_checks = Some(amounts::amount_checks(invoices, runs, opts));
         }
     }
     b
@@ -437,15 +451,20 @@ pub fn bin_members_with<M: Members + ?Sized>(test: &str, bin_value: u32, invoice
             .map(|(i, _)| i)
             .collect(),
         "second_order" => {
-            let sorted = sorted_amounts(invoices);
             let mut out = Vec::new();
-            for i in 1..sorted.len() {
-                let d = sorted.key(i) - sorted.key(i - 1);
-                if d > 0 && Amount(d as i64).leading_digits(2) == Some(bin_value) {
-                    out.push(sorted.idx(i - 1) as usize);
-                    out.push(sorted.idx(i) as usize);
+            let mut prev: Option<(u64, u32)> = None;
+            for_each_sorted_window(invoices, |sorted| {
+                for i in 0..sorted.len() {
+                    let (k, x) = (sorted.key(i), sorted.idx(i));
+                    if let Some((pk, px)) = prev.replace((k, x)) {
+                        let d = k - pk;
+                        if d > 0 && Amount(d as i64).leading_digits(2) == Some(bin_value) {
+                            out.push(px as usize);
+                            out.push(x as usize);
+                        }
+                    }
                 }
-            }
+            });
             out.sort_unstable();
             out.dedup();
             out

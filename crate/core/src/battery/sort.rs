@@ -95,9 +95,72 @@ pub(crate) enum Sorted {
     Pairs(Vec<Keyed>),
 }
 
+/// Number of amount buckets of [`bucket`]: 64 binary orders of magnitude, 32 steps in each.
+pub const BUCKETS: usize = 64 * 32;
+
+/// A nondecreasing map of nonzero amounts to `0..BUCKETS`: the position of the highest set bit
+/// and the five bits below it (each bucket spans 1/32 of a power of two).
+#[inline]
+pub fn bucket(v: u64) -> usize {
+    let e = 63 - v.leading_zeros();
+    let mant = if e >= 5 { (v >> (e - 5)) & 31 } else { (v << (5 - e)) & 31 };
+    (e as usize) * 32 + mant as usize
+}
+
+/// Populations up to this size are sorted in one window.
+pub const WINDOW_MIN: usize = 1 << 16;
+
+/// Split a population's nonzero amounts into windows of consecutive buckets holding at most
+/// `max(m / 8, WINDOW_MIN)` members each (a single bucket holding more is a window of its own):
+/// `(first bucket, last bucket, members)`, ascending. Windows hold ascending, disjoint ranges of
+/// amounts, so sorting each in turn visits the amounts in sorted order while holding about an
+/// eighth of them at once.
+pub fn windows(m: usize, amount: impl Fn(usize) -> u64) -> Vec<(usize, usize, usize)> {
+    let cap = (m / 8).max(WINDOW_MIN);
+    if m <= cap {
+        return vec![(0, BUCKETS - 1, usize::MAX)];
+    }
+    let mut hist = vec![0usize; BUCKETS];
+    for i in 0..m {
+        let v = amount(i);
+        if v != 0 {
+            hist[bucket(v)] += 1;
+        }
+    }
+    let mut out = Vec::new();
+    let (mut first, mut count) = (0usize, 0usize);
+    for (b, &h) in hist.iter().enumerate() {
+        if count > 0 && count + h > cap {
+            out.push((first, b - 1, count));
+            first = b;
+            count = 0;
+        }
+        count += h;
+    }
+    if count > 0 {
+        out.push((first, BUCKETS - 1, count));
+    }
+    out
+}
+
 impl Sorted {
-    /// Sort `(amount, index)` for every index `0..n` whose amount (from `amount(i)`) is nonzero.
+    /// Sort `(amount, index)` for every index `0..n` whose amount (from `amount(i)`) is nonzero
+    /// (the whole population in one window: the tests' reference).
+    #[cfg(test)]
     pub fn of(n: usize, amount: impl Fn(usize) -> u64) -> Sorted {
+        Sorted::of_buckets(n, amount, 0, BUCKETS - 1)
+    }
+
+    /// As [`Sorted::of`], for the amounts whose [`bucket`] is in `lo..=hi` only.
+    pub fn of_buckets(n: usize, amount: impl Fn(usize) -> u64, lo: usize, hi: usize) -> Sorted {
+        let amount = |i: usize| {
+            let a = amount(i);
+            if a != 0 && (lo..=hi).contains(&bucket(a)) {
+                a
+            } else {
+                0
+            }
+        };
         let (max_key, nonzero) = (0..n).fold((0u64, 0usize), |(m, c), i| {
             let a = amount(i);
             (m.max(a), c + (a != 0) as usize)
@@ -140,19 +203,6 @@ impl Sorted {
             Sorted::Pairs(v) => v[i].idx,
         }
     }
-    /// First position whose key is at least `x`.
-    pub fn lower_bound(&self, x: u64) -> usize {
-        let (mut lo, mut hi) = (0, self.len());
-        while lo < hi {
-            let mid = (lo + hi) / 2;
-            if self.key(mid) < x {
-                lo = mid + 1;
-            } else {
-                hi = mid;
-            }
-        }
-        lo
-    }
 }
 
 #[cfg(test)]
@@ -179,6 +229,41 @@ mod tests {
         }
     }
 
+    /// Buckets are nondecreasing in the amount; windows cover every nonzero amount once, in
+    /// ascending order, each within its size cap unless it is one bucket.
+    #[test]
+    fn buckets_and_windows() {
+        let mut prev = 0;
+        for v in (1u64..5000).chain((0..64).map(|k| 1u64 << k)).chain((1..64).map(|k| (1u64 << k) - 1)).collect::<std::collections::BTreeSet<_>>() {
+            let b = bucket(v);
+            assert!(b >= prev && b < BUCKETS, "v {v}");
+            prev = b;
+        }
+        let mut x: u64 = 88172645463325252;
+        let amounts: Vec<u64> = (0..600_000)
+            .map(|i| {
+                x ^= x << 13;
+                x ^= x >> 7;
+                x ^= x << 17;
+                if i % 50 == 0 { 0 } else if i % 7 == 0 { 4_999_900 } else { 1000 + x % 100_000_000 }
+            })
+            .collect();
+        let w = windows(amounts.len(), |i| amounts[i]);
+        assert!(w.len() >= 8, "{w:?}");
+        let mut all: Vec<(u64, u32)> = Vec::new();
+        let mut last_hi = None;
+        for &(lo, hi, count) in &w {
+            assert!(last_hi.map_or(true, |h: usize| lo == h + 1) && lo <= hi);
+            last_hi = Some(hi);
+            assert!(count <= 600_000 / 8 || lo == hi, "window {lo}..={hi} holds {count}");
+            let s = Sorted::of_buckets(amounts.len(), |i| amounts[i], lo, hi);
+            assert_eq!(s.len(), count);
+            all.extend((0..s.len()).map(|i| (s.key(i), s.idx(i))));
+        }
+        let whole = Sorted::of(amounts.len(), |i| amounts[i]);
+        assert_eq!(all, (0..whole.len()).map(|i| (whole.key(i), whole.idx(i))).collect::<Vec<_>>());
+    }
+
     /// `Sorted` gives the stable order by amount (ties by index) in both layouts.
     #[test]
     fn sorted_amounts_stable_by_index() {
@@ -192,6 +277,5 @@ mod tests {
         let got = Sorted::of(big.len(), |i| big[i]);
         assert!(matches!(got, Sorted::Pairs(_)));
         assert_eq!((0..got.len()).map(|i| (got.key(i) >> 54, got.idx(i))).collect::<Vec<_>>(), want);
-        assert_eq!(got.lower_bound(500 << 54), want.partition_point(|p| p.0 < 500));
     }
 }
