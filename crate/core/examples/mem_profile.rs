@@ -5,7 +5,7 @@
 //! and the bytes live at its end (all in bytes; `_per_row` divided by the analysed rows).
 //! Phases follow `digitdrift screen FILE --format json`: intake fed 1 MiB reads (the reading
 //! buffer counted), every supplier's battery, calibration + ranking + the whole file + the
-//! credit notes (report::finish_screen), then the JSON text.
+//! credit notes (report::finish_screen), then the JSON text (streamed, as the CLI writes it).
 use digitdrift_core::intake::{Intake, IntakeOptions};
 use digitdrift_core::report::{self, ScreenOptions};
 use std::alloc::{GlobalAlloc, Layout, System};
@@ -106,7 +106,22 @@ fn main() {
     let mut cal = sopts.calibration.as_ref().map(|c| digitdrift_core::calibrate::Calibrator::new(c.clone()));
     let rep = phase(&mut ph, "finish_screen", || report::finish_screen(l, &res.info, IntakeOptions::default().min_amount, &sopts, sup, &counts, cal.as_mut()));
     drop(cal);
-    let json = phase(&mut ph, "json", || serde_json::to_string_pretty(&rep).unwrap());
+    // Written as the CLI writes it (streamed; counted, not kept).
+    struct Count(usize);
+    impl std::io::Write for Count {
+        fn write(&mut self, b: &[u8]) -> std::io::Result<usize> {
+            self.0 += b.len();
+            Ok(b.len())
+        }
+        fn flush(&mut self) -> std::io::Result<()> {
+            Ok(())
+        }
+    }
+    let json_len = phase(&mut ph, "json", || {
+        let mut c = Count(0);
+        serde_json::to_writer_pretty(std::io::BufWriter::new(&mut c), &rep).unwrap();
+        c.0
+    });
     let overall = ph.iter().map(|p| p.peak).max().unwrap_or(0);
     let pr = |b: usize| b as f64 / n.max(1) as f64;
     let phases: Vec<String> = ph
@@ -127,7 +142,7 @@ fn main() {
         l.suppliers.len(),
         pr(store),
         pr(overall),
-        json.len(),
+        json_len,
         phases.join(",")
     );
 }
