@@ -175,17 +175,27 @@ impl Ledger {
     /// Invoice indices grouped per supplier, each group in file order, in one exactly sized
     /// array (4 bytes per invoice; a counting sort by supplier id).
     pub fn supplier_order(&self) -> SupplierOrder {
+        self.supplier_order_without(None)
+    }
+    /// As [`Ledger::supplier_order`], leaving out one supplier's invoices (its group is empty).
+    pub fn supplier_order_without(&self, skip: Option<u32>) -> SupplierOrder {
         let k = self.suppliers.len();
         let mut start = vec![0u32; k + 1];
         for inv in &self.invoices {
             start[inv.supplier as usize + 1] += 1;
         }
+        if let Some(s) = skip {
+            start[s as usize + 1] = 0;
+        }
         for s in 0..k {
             start[s + 1] += start[s];
         }
         let mut next = start.clone();
-        let mut idx = vec![0u32; self.invoices.len()];
+        let mut idx = vec![0u32; start[k] as usize];
         for (i, inv) in self.invoices.iter().enumerate() {
+            if Some(inv.supplier) == skip {
+                continue;
+            }
             let s = inv.supplier as usize;
             idx[next[s] as usize] = i as u32;
             next[s] += 1;
@@ -285,6 +295,9 @@ mod tests {
         }
         assert_eq!((o.of(0), o.of(1), o.of(2)), (&[1u32, 4][..], &[][..], &[0u32, 2, 3][..]));
         assert_eq!(o.idx.capacity(), 5);
+        let w = l.supplier_order_without(Some(2));
+        assert_eq!((w.of(0), w.of(1), w.of(2)), (&[1u32, 4][..], &[][..], &[][..]));
+        assert_eq!(w.idx.capacity(), 2);
     }
     #[test]
     fn keys_fold_case_and_space() {

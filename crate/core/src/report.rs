@@ -257,20 +257,35 @@ pub fn screen(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &Scr
 /// The first half of [`screen`]: every supplier's battery (suppliers with invoices, in id
 /// order) and its first-two digit counts, which calibration reads.
 pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> (Vec<SupplierResult>, Vec<Vec<u64>>) {
-    // One exactly sized index array (4 bytes per invoice); each supplier is read through its
-    // slice of it, with no copy or references.
-    let order = ledger.supplier_order();
-    let mut counts = Vec::new();
-    let suppliers: Vec<SupplierResult> = (0..ledger.suppliers.len())
-        .filter(|&sid| !order.of(sid).is_empty())
-        .map(|sid| {
-            let invs = Indexed { all: &ledger.invoices, idx: order.of(sid) };
-            let r = population(sid as u32, &ledger.suppliers[sid].name, &invs, opts);
-            counts.push(first_two_counts(&r, &invs));
-            r
-        })
-        .collect();
-    (suppliers, counts)
+    // Memory: the largest supplier first, read through a list of its own invoice indices (or
+    // the whole file as a slice when it has every invoice); then the others through one exactly
+    // sized index array of theirs (4 bytes per invoice), with no copies or references.
+    let k = ledger.suppliers.len();
+    let mut sizes = vec![0usize; k];
+    for inv in &ledger.invoices {
+        sizes[inv.supplier as usize] += 1;
+    }
+    let big = (0..k).max_by_key(|&s| (sizes[s], std::cmp::Reverse(s))).filter(|&s| sizes[s] > 0);
+    let mut out: Vec<Option<(SupplierResult, Vec<u64>)>> = (0..k).map(|_| None).collect();
+    fn one<M: Members + ?Sized>(ledger: &Ledger, sid: usize, invs: &M, opts: &ScreenOptions) -> Option<(SupplierResult, Vec<u64>)> {
+        let r = population(sid as u32, &ledger.suppliers[sid].name, invs, opts);
+        let c = first_two_counts(&r, invs);
+        Some((r, c))
+    }
+    if let Some(b) = big {
+        out[b] = if sizes[b] == ledger.invoices.len() {
+            one(ledger, b, ledger.invoices.as_slice(), opts)
+        } else {
+            let idx: Vec<u32> = (0..ledger.invoices.len() as u32).filter(|&i| ledger.invoices[i as usize].supplier as usize == b).collect();
+            one(ledger, b, &Indexed { all: &ledger.invoices, idx: &idx }, opts)
+        };
+    }
+    let order = ledger.supplier_order_without(big.map(|b| b as u32));
+    for sid in (0..k).filter(|&s| Some(s) != big && sizes[s] > 0) {
+        out[sid] = one(ledger, sid, &Indexed { all: &ledger.invoices, idx: order.of(sid) }, opts);
+    }
+    drop(order);
+    out.into_iter().flatten().unzip()
 }
 
 /// The second half of [`screen`]: calibration with `cal` (made from `opts.calibration`, and

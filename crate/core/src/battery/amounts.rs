@@ -233,7 +233,15 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
         .map(|&l| limit_cluster(invoices, l, opts.limit_window, cap))
         .collect();
 
-    // One sequential pass: round amounts, undated and numbered invoices.
+    // A 32-bit mix of (supplier, number) above the member's index in one word.
+    let mixed = |i: usize, h: u64, s: u32| {
+        let h = (h ^ (s as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15)).wrapping_mul(0xD6E8_FEB8_6659_FD93);
+        (h >> 32) << 32 | i as u64
+    };
+    // One sequential pass: round amounts, undated and numbered invoices (and, for a population
+    // of one window, the numbered words themselves).
+    let one_window = invoices.len() <= super::WINDOW_MIN;
+    let mut numbered: Vec<u64> = Vec::new();
     let (mut c00, mut b100, mut c100, mut b1000, mut c1000) = (0u64, 0u64, 0u64, 0u64, 0u64);
     let (mut l00, mut l100, mut l1000) = (Vec::new(), Vec::new(), Vec::new());
     let (mut undated, mut numbered_count) = (0u64, 0usize);
@@ -242,7 +250,12 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
         if inv.date == NO_DATE {
             undated += 1;
         }
-        numbered_count += (inv.invoice_hash != 0) as usize;
+        if inv.invoice_hash != 0 {
+            numbered_count += 1;
+            if one_window {
+                numbered.push(mixed(i, inv.invoice_hash, inv.supplier));
+            }
+        }
         let v = inv.amount.0.unsigned_abs();
         if v == 0 || v % SCALE as u64 != 0 {
             continue;
@@ -299,28 +312,29 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
         reference: ROUND_REFERENCE,
     };
 
-    // Same supplier and invoice number. A 32-bit mix of (supplier, number) above the member's
-    // index in one word, sorted in place: equal pairs land in one run (in index order); the rare
-    // unequal pairs sharing a mix are told apart exactly inside the run.
+    // Same supplier and invoice number. The numbered words sorted in place: equal pairs land in
+    // one run (in index order); the rare unequal pairs sharing a mix are told apart exactly
+    // inside the run.
     // Large populations go in 2^k windows by the mix's top k bits (the mix is spread evenly, so
-    // each holds about an eighth of the numbered invoices at most), ascending.
+    // each holds about a quarter of the numbered invoices at most), ascending.
     let unnumbered = invoices.len() as u64 - numbered_count as u64;
-    let per = (numbered_count / 8).max(super::WINDOW_MIN);
+    let per = (numbered_count / 4).max(super::WINDOW_MIN);
     let mut k = 0u32;
     while k < 12 && numbered_count >> k > per {
         k += 1;
     }
+    debug_assert!(!one_window || k == 0);
     let mut local2: Vec<(u32, u64, u32)> = Vec::new();
-    let mut numbered: Vec<u64> = Vec::new();
     for w in 0..1u64 << k {
-        numbered.clear();
-        for i in 0..invoices.len() {
-            let inv = invoices.at(i);
-            if inv.invoice_hash != 0 {
-                let h = (inv.invoice_hash ^ (inv.supplier as u64).wrapping_mul(0x9E37_79B9_7F4A_7C15))
-                    .wrapping_mul(0xD6E8_FEB8_6659_FD93);
-                if k == 0 || h >> (64 - k) == w {
-                    numbered.push((h >> 32) << 32 | i as u64);
+        if !one_window {
+            numbered.clear();
+            for i in 0..invoices.len() {
+                let inv = invoices.at(i);
+                if inv.invoice_hash != 0 {
+                    let x = mixed(i, inv.invoice_hash, inv.supplier);
+                    if k == 0 || x >> (64 - k) == w {
+                        numbered.push(x);
+                    }
                 }
             }
         }

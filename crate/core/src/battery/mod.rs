@@ -339,11 +339,11 @@ impl Members for Indexed<'_> {
 
 /// Calls `f` with a population's nonzero amounts as sort keys (|amount| in amount units),
 /// sorted by amount (ties in index order), window by window in ascending order: each window
-/// holds about an eighth of the members at most ([`sort::windows`]), 8 bytes each.
+/// holds about a quarter of the members at most ([`sort::windows`]), 8 bytes each.
 pub(crate) fn for_each_sorted_window<M: Members + ?Sized>(invoices: &M, mut f: impl FnMut(&Sorted)) {
     let amount = |i: usize| invoices.at(i).amount.0.unsigned_abs();
-    for (lo, hi, _) in sort::windows(invoices.len(), amount) {
-        f(&Sorted::of_buckets(invoices.len(), amount, lo, hi));
+    for w in sort::windows(invoices.len(), amount) {
+        f(&Sorted::of_window(invoices.len(), amount, w));
     }
 }
 
