@@ -276,7 +276,8 @@ pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> (Vec<Supplie
         out[b] = if sizes[b] == ledger.invoices.len() {
             one(ledger, b, ledger.invoices.as_slice(), opts)
         } else {
-            let idx: Vec<u32> = (0..ledger.invoices.len() as u32).filter(|&i| ledger.invoices[i as usize].supplier as usize == b).collect();
+            let mut idx: Vec<u32> = Vec::with_capacity(sizes[b]);
+            idx.extend((0..ledger.invoices.len() as u32).filter(|&i| ledger.invoices[i as usize].supplier as usize == b));
             one(ledger, b, &Indexed { all: &ledger.invoices, idx: &idx }, opts)
         };
     }

@@ -127,6 +127,21 @@ pub struct AmountChecks {
     pub note: &'static str,
 }
 
+/// Listed order of duplicate groups: largest extra amount first, then by members (stable).
+fn sort_groups(g: &mut [DuplicateGroup]) {
+    g.sort_by(|a, b| b.extra_amount.cmp(&a.extra_amount).then(a.invoices.cmp(&b.invoices)));
+}
+
+/// Keep at most about 2 x `keep` groups in memory: when full, keep the first `keep` of them in
+/// listed order. A stable sort of the kept ones followed by later groups gives the same first
+/// `keep` as one sort of all of them at the end.
+fn prune_groups(g: &mut Vec<DuplicateGroup>, keep: usize) {
+    if g.len() >= 2 * keep.max(64) {
+        sort_groups(g);
+        g.truncate(keep);
+    }
+}
+
 fn capped(mut v: Vec<usize>, cap: usize) -> (Vec<usize>, bool) {
     v.sort_unstable();
     let t = v.len() > cap;
@@ -195,6 +210,7 @@ impl RunsAcc {
                     self.sad_g += 1;
                     self.sad_i += (b - a) as u64;
                     let amt = Amount(key as i64);
+                    prune_groups(&mut self.groups, opts.max_duplicate_groups);
                     self.groups.push(DuplicateGroup {
                         kind: "same_amount_date",
                         supplier: local[a].0,
@@ -245,6 +261,8 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
     let (mut c00, mut b100, mut c100, mut b1000, mut c1000) = (0u64, 0u64, 0u64, 0u64, 0u64);
     let (mut l00, mut l100, mut l1000) = (Vec::new(), Vec::new(), Vec::new());
     let (mut undated, mut numbered_count) = (0u64, 0usize);
+    // Numbered invoices per value of the mix's top 12 bits: the sizes of the windows below.
+    let mut by_top = if one_window { Vec::new() } else { vec![0usize; 1 << 12] };
     for i in 0..invoices.len() {
         let inv = invoices.at(i);
         if inv.date == NO_DATE {
@@ -252,8 +270,11 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
         }
         if inv.invoice_hash != 0 {
             numbered_count += 1;
+            let x = mixed(i, inv.invoice_hash, inv.supplier);
             if one_window {
-                numbered.push(mixed(i, inv.invoice_hash, inv.supplier));
+                numbered.push(x);
+            } else {
+                by_top[(x >> 52) as usize] += 1;
             }
         }
         let v = inv.amount.0.unsigned_abs();
@@ -324,6 +345,12 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
         k += 1;
     }
     debug_assert!(!one_window || k == 0);
+    if !one_window {
+        // One buffer, sized for the largest window (never grown by doubling).
+        let largest = by_top.chunks(1 << (12 - k)).map(|c| c.iter().sum::<usize>()).max().unwrap_or(0);
+        numbered = Vec::with_capacity(largest);
+    }
+    drop(by_top);
     let mut local2: Vec<(u32, u64, u32)> = Vec::new();
     for w in 0..1u64 << k {
         if !one_window {
@@ -366,6 +393,7 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
                         let amts: Vec<i64> = idx.iter().map(|&x| invoices.at(x).amount.0.saturating_abs()).collect();
                         let max = *amts.iter().max().unwrap();
                         let total: i64 = amts.iter().fold(0i64, |s, &x| s.saturating_add(x));
+                        prune_groups(&mut groups, opts.max_duplicate_groups);
                         groups.push(DuplicateGroup {
                             kind: "same_number",
                             supplier: local2[a].0,
@@ -383,8 +411,8 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
         }
     }
     drop(numbered);
-    groups.sort_by(|a, b| b.extra_amount.cmp(&a.extra_amount).then(a.invoices.cmp(&b.invoices)));
-    let groups_truncated = groups.len() > opts.max_duplicate_groups;
+    sort_groups(&mut groups);
+    let groups_truncated = sad_g + sn_g > opts.max_duplicate_groups as u64;
     groups.truncate(opts.max_duplicate_groups);
     let duplicates = Duplicates {
         same_amount_date_groups: sad_g,
@@ -445,5 +473,39 @@ fn limit_cluster<M: Members + ?Sized>(invoices: &M, limit: Amount, window: f64, 
         p_value: stats::binom_sf_ge(count, total, share),
         invoices: inv,
         invoices_truncated: t,
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Pruning while groups are found keeps exactly the first groups a single sort of all of
+    /// them lists (ties in extra amount and members included; order of finding kept for equals).
+    #[test]
+    fn pruned_groups_are_the_first_of_one_sort() {
+        let mut x: u64 = 0x853c49e6748fea9b;
+        let mut all = Vec::new();
+        for i in 0..5000usize {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            let kind = if i % 2 == 0 { "same_amount_date" } else { "same_number" };
+            let members = vec![(x % 40) as usize, 40 + (x >> 20) as usize % 3];
+            all.push(DuplicateGroup { kind, supplier: 0, amount: Amount(1), date: None, count: 2, extra_amount: Amount((x >> 40) as i64 % 25), invoices: members });
+        }
+        for keep in [1usize, 10, 200] {
+            let mut pruned = Vec::new();
+            for g in &all {
+                prune_groups(&mut pruned, keep);
+                pruned.push(g.clone());
+            }
+            sort_groups(&mut pruned);
+            pruned.truncate(keep);
+            let mut once = all.clone();
+            sort_groups(&mut once);
+            once.truncate(keep);
+            assert_eq!(pruned, once, "keep {keep}");
+        }
     }
 }
