@@ -97,10 +97,14 @@ async function intakeOnly(files, runs) {
     console.log(`  chromium, next slice read ahead  ${chromium_mb_per_s.toFixed(1).padStart(7)} MB/s  (${(best.ms / 1000).toFixed(3)} s wall in the Worker, ${(best.feedMs / 1000).toFixed(3)} s of it in intake; runs ${secs(web.ahead)} s)`);
     console.log(`  chromium, slices read in turn    ${rate(inTurn.ms).toFixed(1).padStart(7)} MB/s  (${(inTurn.ms / 1000).toFixed(3)} s wall in the Worker, ${(inTurn.feedMs / 1000).toFixed(3)} s of it in intake; runs ${secs(web.inTurn)} s)`);
     console.log(`  chromium (read ahead)/native throughput ratio ${(chromium_mb_per_s / native.native_mb_per_s).toFixed(2)}; read ahead/in turn ${(inTurn.ms / best.ms).toFixed(2)}`);
+    // Linear memory only grows: after the runs it is the peak of one intake (0 from a page
+    // whose Worker does not report it).
+    const wasmMb = Math.max(...web.ahead.concat(web.inTurn).map((w) => w.wasmMemoryBytes || 0)) / 1048576;
+    console.log(`  chromium Worker wasm memory after intake ${wasmMb.toFixed(1)} MiB`);
     for (const w of [best, inTurn]) {
       if (w.read !== native.rows_read || w.analysed !== native.rows_analysed) throw new Error(`row counts differ: chromium ${w.read}/${w.analysed}, native ${native.rows_read}/${native.rows_analysed}`);
     }
-    console.log(JSON.stringify({ file, mb, rows_read: native.rows_read, rows_analysed: native.rows_analysed, native_mb_per_s: native.native_mb_per_s, chromium_mb_per_s, chromium_in_turn_mb_per_s: rate(inTurn.ms), chromium_intake_only_mb_per_s: rate(best.feedMs), ratio: chromium_mb_per_s / native.native_mb_per_s }));
+    console.log(JSON.stringify({ file, mb, rows_read: native.rows_read, rows_analysed: native.rows_analysed, native_mb_per_s: native.native_mb_per_s, chromium_mb_per_s, chromium_in_turn_mb_per_s: rate(inTurn.ms), chromium_intake_only_mb_per_s: rate(best.feedMs), ratio: chromium_mb_per_s / native.native_mb_per_s, chromium_wasm_memory_mb: wasmMb }));
   }
   await context.close();
   await browser.close();
