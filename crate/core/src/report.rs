@@ -259,7 +259,7 @@ pub fn screen(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &Scr
 pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> (Vec<SupplierResult>, Vec<Vec<u64>>) {
     // Memory: the largest supplier first, read through a list of its own invoice indices (or
     // the whole file as a slice when it has every invoice); then the others through one exactly
-    // sized index array of theirs (4 bytes per invoice), with no copies or references.
+    // sized index array of theirs (4 bytes per invoice). No list of references is built.
     let k = ledger.suppliers.len();
     let mut sizes = vec![0usize; k];
     for inv in &ledger.invoices {
