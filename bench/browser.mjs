@@ -2,7 +2,8 @@
 // (the page reads it through the Worker's chunked File.slice intake), and prints the Worker's wall
 // time for intake + full screen (digit tests and calibration), the page's JS heap, and the peak
 // resident memory of the tab's renderer process (VmHWM; it holds the Worker, its wasm linear
-// memory and the JS heaps), found among this process's own descendants only.
+// memory and the JS heaps), found among this process's own descendants only, and the size of the
+// screening Worker's wasm linear memory after the screen (its peak: linear memory never shrinks).
 // Usage: node bench/browser.mjs FILE...
 //
 // Intake-only mode: node bench/browser.mjs --intake-only [--runs N] FILE...
@@ -96,10 +97,14 @@ async function intakeOnly(files, runs) {
     console.log(`  chromium, next slice read ahead  ${chromium_mb_per_s.toFixed(1).padStart(7)} MB/s  (${(best.ms / 1000).toFixed(3)} s wall in the Worker, ${(best.feedMs / 1000).toFixed(3)} s of it in intake; runs ${secs(web.ahead)} s)`);
     console.log(`  chromium, slices read in turn    ${rate(inTurn.ms).toFixed(1).padStart(7)} MB/s  (${(inTurn.ms / 1000).toFixed(3)} s wall in the Worker, ${(inTurn.feedMs / 1000).toFixed(3)} s of it in intake; runs ${secs(web.inTurn)} s)`);
     console.log(`  chromium (read ahead)/native throughput ratio ${(chromium_mb_per_s / native.native_mb_per_s).toFixed(2)}; read ahead/in turn ${(inTurn.ms / best.ms).toFixed(2)}`);
+    // Linear memory only grows: after the runs it is the peak of one intake (0 from a page
+    // whose Worker does not report it).
+    const wasmMb = Math.max(...web.ahead.concat(web.inTurn).map((w) => w.wasmMemoryBytes || 0)) / 1048576;
+    console.log(`  chromium Worker wasm memory after intake ${wasmMb.toFixed(1)} MiB`);
     for (const w of [best, inTurn]) {
       if (w.read !== native.rows_read || w.analysed !== native.rows_analysed) throw new Error(`row counts differ: chromium ${w.read}/${w.analysed}, native ${native.rows_read}/${native.rows_analysed}`);
     }
-    console.log(JSON.stringify({ file, mb, rows_read: native.rows_read, rows_analysed: native.rows_analysed, native_mb_per_s: native.native_mb_per_s, chromium_mb_per_s, chromium_in_turn_mb_per_s: rate(inTurn.ms), chromium_intake_only_mb_per_s: rate(best.feedMs), ratio: chromium_mb_per_s / native.native_mb_per_s }));
+    console.log(JSON.stringify({ file, mb, rows_read: native.rows_read, rows_analysed: native.rows_analysed, native_mb_per_s: native.native_mb_per_s, chromium_mb_per_s, chromium_in_turn_mb_per_s: rate(inTurn.ms), chromium_intake_only_mb_per_s: rate(best.feedMs), ratio: chromium_mb_per_s / native.native_mb_per_s, chromium_wasm_memory_mb: wasmMb }));
   }
   await context.close();
   await browser.close();
@@ -125,8 +130,9 @@ for (const file of argv) {
   const wall = (Date.now() - t0) / 1000;
   const heap = await page.evaluate(() => (performance.memory ? performance.memory.usedJSHeapSize : 0));
   const rows = await page.evaluate(() => window.digitdrift.report.rows);
+  const wasmMem = await page.evaluate(() => window.digitdrift.wasmMemoryBytes || 0);
   const mb = statSync(file).size / 1e6;
-  console.log(JSON.stringify({ file, mb, rows_read: rows.read, rows_analysed: rows.analysed, browser_seconds: wall, browser_mb_per_s: mb / wall, page_js_heap_mb: heap / 1e6, renderer_peak_rss_mb: rendererPeakMb() }));
+  console.log(JSON.stringify({ file, mb, rows_read: rows.read, rows_analysed: rows.analysed, browser_seconds: wall, browser_mb_per_s: mb / wall, page_js_heap_mb: heap / 1e6, renderer_peak_rss_mb: rendererPeakMb(), worker_wasm_memory_mb: wasmMem / 1048576 }));
   await context.close();
 }
 await browser.close();

@@ -24,7 +24,7 @@ if [ "${SKIP_CRITERION:-0}" != 1 ]; then
 fi
 echo
 echo "machine: $(nproc) cores, $(grep -m1 'model name' /proc/cpuinfo | cut -d: -f2 | xargs), load average $(cut -d' ' -f1-3 /proc/loadavg)"
-printf '%-9s %7s %9s %9s %8s %8s %9s %9s %10s %8s %10s\n' rows MB native_s browser_s br/nat duckdb_s nat/duck nat_rssMB tab_peakMB jsheapMB analysed
+printf '%-9s %7s %9s %9s %8s %8s %9s %9s %10s %8s %9s %10s\n' rows MB native_s browser_s br/nat duckdb_s nat/duck nat_rssMB tab_peakMB jsheapMB wasm_MiB analysed
 prev=""
 for n in "${ROWS[@]}"; do
   f=build/bench/ledger-$n.csv
@@ -35,7 +35,7 @@ for n in "${ROWS[@]}"; do
   read -r nat rss < build/bench/time.txt
   analysed=$(python3 -c "import json;print(json.load(open('build/bench/screen.json'))['rows']['analysed'])")
   bj=$(node bench/browser.mjs "$f")
-  read -r br peak heap < <(python3 -c "import json,sys;j=json.loads(sys.argv[1]);print(round(j['browser_seconds'],2), round(j['renderer_peak_rss_mb']), round(j['page_js_heap_mb'],1))" "$bj")
+  read -r br peak heap wasm < <(python3 -c "import json,sys;j=json.loads(sys.argv[1]);print(round(j['browser_seconds'],2), round(j['renderer_peak_rss_mb']), round(j['page_js_heap_mb'],1), round(j['worker_wasm_memory_mb'],1))" "$bj")
   duck=$(python3 - "$f" <<'PY'
 import sys, time, duckdb
 f = sys.argv[1]
@@ -43,14 +43,14 @@ sql = open('tests/reference/sql/first_two_counts.sql').read().replace('{LEDGER}'
 t = time.perf_counter(); duckdb.connect().execute(sql).fetchall(); print(round(time.perf_counter() - t, 2))
 PY
 )
-  printf '%-9s %7s %9s %9s %8s %8s %9s %9s %10s %8s %10s\n' "$n" "$mb" "$nat" "$br" \
+  printf '%-9s %7s %9s %9s %8s %8s %9s %9s %10s %8s %9s %10s\n' "$n" "$mb" "$nat" "$br" \
     "$(python3 -c "print(round($br/$nat,2))")" "$duck" "$(python3 -c "print(round($nat/$duck,2))")" \
-    "$((rss/1024))" "$peak" "$heap" "$analysed"
+    "$((rss/1024))" "$peak" "$heap" "$wasm" "$analysed"
   if [ -n "$prev" ]; then
-    read -r pa prss ppeak <<< "$prev"
+    read -r pa prss ppeak pwasm <<< "$prev"
     python3 -c "
 da=$analysed-$pa
-print(f'  marginal memory per analysed row from {$pa:,} to {$analysed:,} rows: native {($rss-$prss)*1024/da:.1f} bytes, tab {($peak-$ppeak)*1048576/da:.1f} bytes (max RSS and renderer peak; includes names and per-supplier state)')"
+print(f'  marginal memory per analysed row from {$pa:,} to {$analysed:,} rows: native {($rss-$prss)*1024/da:.1f} bytes, tab {($peak-$ppeak)*1048576/da:.1f} bytes, Worker wasm memory {($wasm-$pwasm)*1048576/da:.1f} bytes (max RSS, renderer peak, linear memory after the screen; includes names and per-supplier state)')"
   fi
-  prev="$analysed $rss $peak"
+  prev="$analysed $rss $peak $wasm"
 done

@@ -13,11 +13,13 @@ cargo test --workspace --exclude digitdrift-wasm
 step "release CLI for the outside checks"
 cargo build --release -p digitdrift -p digitdrift-demo-gen --bins
 cargo build --release -p digitdrift-core --examples
-export DIGITDRIFT_BIN="$(pwd)/target/release/digitdrift"
-export DIGITDRIFT_RELEASE_DIR="$(pwd)/target/release"
+# Binaries live in CARGO_TARGET_DIR when it is set (an engineer's own target dir).
+T="$(realpath -m "${CARGO_TARGET_DIR:-target}")"
+export DIGITDRIFT_BIN="$T/release/digitdrift"
+export DIGITDRIFT_RELEASE_DIR="$T/release"
 
 step "demo ledger is exactly what its generator makes"
-./target/release/demo-gen --check demo-files/heathervale-vet-ledger.csv
+"$T/release/demo-gen" --check demo-files/heathervale-vet-ledger.csv
 
 step "outside checks (pytest: scipy, numpy, duckdb)"
 python3 -m pytest -q tests/reference

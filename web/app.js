@@ -154,6 +154,7 @@
       state.fileName = res.name;
       state.sha256 = res.sha256;
       state.size = res.size;
+      state.wasmMemoryBytes = res.wasmMemoryBytes; // the Worker's wasm linear memory after the screen (its peak: it never shrinks); read by bench/browser.mjs
       state.pull = new Map(); state.notes = {}; updatePullCount();
       $('replay-body').dataset.ready = ''; $('supplier-body').dataset.id = '';
       if (!res.intake.ok) {

@@ -46,6 +46,7 @@ async function openLedger(id, blob, name, options, settings) {
   cancelled = false;
   session = new wasm_bindgen.Session(options || {});
   const total = blob.size;
+  session.setSizeHint(total); // the invoice store is reserved once, not grown by copies
   let done = 0;
   const t0 = performance.now();
   for await (const { buf, end } of slices(blob)) {
@@ -60,7 +61,7 @@ async function openLedger(id, blob, name, options, settings) {
   const res = await screenSplit(settings || {}, true);
   if (!res) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
   const ms = performance.now() - t0;
-  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, timing: res.timing, ms, sha256: session.fingerprint() } });
+  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, timing: res.timing, ms, sha256: session.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
 }
 
 // ---------- a second Worker for the calibration's null tables ----------
@@ -221,6 +222,7 @@ const handlers = {
   async benchIntake({ id, file, readAhead }) {
     const t0 = performance.now();
     const it = new wasm_bindgen.BenchIntake();
+    it.setSizeHint(file.size);
     let feedMs = 0;
     for await (const { buf } of (readAhead ? slices : slicesInTurn)(file)) {
       const f0 = performance.now();
@@ -231,7 +233,7 @@ const handlers = {
     const [read, analysed] = it.finish();
     feedMs += performance.now() - f0;
     it.free();
-    post({ id, ok: true, value: { ms: performance.now() - t0, feedMs, read, analysed } });
+    post({ id, ok: true, value: { ms: performance.now() - t0, feedMs, read, analysed, wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
   },
   async invoicesAt({ id, supplier, indices }) { post({ id, ok: true, value: session.invoicesAt(supplier, new Uint32Array(indices)) }); },
 };

@@ -39,7 +39,13 @@ pub fn read_ledger(path: &str, opts: IntakeOptions) -> Result<IntakeResult, Stri
     let mut src: Box<dyn Read> = if path == "-" {
         Box::new(std::io::stdin())
     } else {
-        Box::new(std::fs::File::open(path).map_err(|e| format!("{path}: {e}"))?)
+        let f = std::fs::File::open(path).map_err(|e| format!("{path}: {e}"))?;
+        if let Ok(m) = f.metadata() {
+            if m.is_file() {
+                intake.set_size_hint(m.len());
+            }
+        }
+        Box::new(f)
     };
     let mut buf = vec![0u8; 1 << 20];
     loop {
@@ -58,4 +64,13 @@ pub fn format_flag(a: &Args) -> Result<bool, String> {
         Some("json") => Ok(true),
         Some(v) => Err(format!("--format takes json or text, not '{v}'")),
     }
+}
+
+/// Pretty JSON and a newline on standard output, written as it is made (a large report is
+/// never held as one string).
+pub fn print_json<T: serde::Serialize>(v: &T) -> Result<(), String> {
+    use std::io::Write;
+    let mut out = std::io::BufWriter::with_capacity(1 << 16, std::io::stdout().lock());
+    serde_json::to_writer_pretty(&mut out, v).map_err(|e| e.to_string())?;
+    out.write_all(b"\n").and_then(|_| out.flush()).map_err(|e| e.to_string())
 }

@@ -75,7 +75,7 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
             let t = digitdrift_core::counts::read(&bytes).map_err(|e| format!("{file}: {e}"))?;
             let rep = digitdrift_core::counts::screen(&t, &sopts);
             if json {
-                println!("{}", serde_json::to_string_pretty(&rep).map_err(|e| e.to_string())?);
+                crate::common::print_json(&rep)?;
             } else {
                 print!("{}", report::render_text(&rep));
             }
@@ -85,7 +85,7 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
     let res = read_ledger(file, opts)?;
     let rep = report::screen(&res.ledger, &res.info, min, &sopts);
     if json {
-        println!("{}", serde_json::to_string_pretty(&rep).map_err(|e| e.to_string())?);
+        crate::common::print_json(&rep)?;
     } else {
         print!("{}", report::render_text(&rep));
     }

@@ -160,7 +160,7 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
     tr.run();
     let rep = tr.report();
     if json {
-        println!("{}", serde_json::to_string_pretty(&rep).map_err(|e| e.to_string())?);
+        crate::common::print_json(&rep)?;
     } else {
         print!("{}", trial::render_text(&rep));
     }

@@ -86,7 +86,7 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
         monitor::watch(&res.ledger, &opts)
     };
     if json {
-        println!("{}", serde_json::to_string_pretty(&rep).map_err(|e| e.to_string())?);
+        crate::common::print_json(&rep)?;
     } else {
         print!("{}", monitor::render_text(&rep));
     }

@@ -19,14 +19,7 @@ fn population(n: usize) -> Vec<Invoice> {
             let u = (next() >> 11) as f64 / (1u64 << 53) as f64;
             let cents = (10f64.powf(1.0 + 5.0 * u) * 100.0).round() as i64;
             let r = next();
-            Invoice {
-                amount: Amount(cents * 100),
-                invoice_hash: if r % 10 == 0 { 0 } else { r >> 20 },
-                supplier: (r % 500) as u32,
-                date: 18_000 + (r >> 40) as i32 % 1460,
-                line: i as u32 + 2,
-                flags: 0,
-            }
+            Invoice::new(Amount(cents * 100), if r % 10 == 0 { 0 } else { r >> 20 }, (r % 500) as u32, 18_000 + (r >> 40) as i32 % 1460, i as u64 + 2)
         })
         .collect()
 }

@@ -33,14 +33,7 @@ fn ledger(rows: usize) -> Ledger {
             // log-uniform from 10 to 100,000 (Benford digits), truncated to cents
             (10f64.powf(1.0 + 4.0 * u) * 100.0) as u64
         };
-        l.invoices.push(Invoice {
-            amount: Amount::from_scaled(cents as i64, 2).unwrap(),
-            invoice_hash: 0,
-            supplier: s,
-            date: day0 + doy,
-            line: i as u32 + 2,
-            flags: 0,
-        });
+        l.invoices.push(Invoice::new(Amount::from_scaled(cents as i64, 2).unwrap(), 0, s, day0 + doy, i as u64 + 2));
     }
     l
 }

@@ -50,7 +50,7 @@ fn read_invoices(text: &str) -> Vec<Invoice> {
         let supplier = cells.next().and_then(|s| s.trim().parse().ok()).unwrap_or(0);
         let date = cells.next().and_then(|s| s.trim().parse().ok()).unwrap_or(NO_DATE);
         let invoice_hash = cells.next().map(|s| s.trim()).filter(|s| !s.is_empty()).map_or(0, |s| fnv1a(s.as_bytes()));
-        out.push(Invoice { amount: a, invoice_hash, supplier, date, line: ln as u32 + 1, flags: 0 });
+        out.push(Invoice::new(a, invoice_hash, supplier, date, ln as u64 + 1));
     }
     out
 }

@@ -1026,9 +1026,9 @@ fn reading_order(ledger: &Ledger, g: &mut [Rec], by_date: bool, lines_in_order: 
     let inv = &ledger.invoices;
     if !lines_in_order {
         if by_date {
-            g.sort_by_key(|r| (r.date, inv[r.idx as usize].line));
+            g.sort_by_key(|r| (r.date, inv[r.idx as usize].line()));
         } else {
-            g.sort_by_key(|r| inv[r.idx as usize].line);
+            g.sort_by_key(|r| inv[r.idx as usize].line());
         }
         return;
     }
@@ -1062,7 +1062,7 @@ fn reading_order(ledger: &Ledger, g: &mut [Rec], by_date: bool, lines_in_order: 
 /// True when the ledger's line numbers rise with its index (always so for a file read by the
 /// intake): file order is then line order.
 fn lines_in_order(ledger: &Ledger) -> bool {
-    ledger.invoices.windows(2).all(|w| w[0].line <= w[1].line)
+    ledger.invoices.windows(2).all(|w| w[0].line() <= w[1].line())
 }
 
 /// Every supplier's invoices (indices into the ledger) in the order [`watch`] reads them: by
@@ -1384,7 +1384,7 @@ fn replay_shard(ctx: &ShardContext, recs: &mut [Rec], sids: std::ops::Range<usiz
                 share,
             }
         });
-        let alarm = alarm.map(|(p, which)| AlarmAt { pos: p, which, date: date_at(p), invoices: p as u64 + 1, line: Some(inv(order_buf[p].idx).line), paid_before });
+        let alarm = alarm.map(|(p, which)| AlarmAt { pos: p, which, date: date_at(p), invoices: p as u64 + 1, line: Some(inv(order_buf[p].idx).line()), paid_before });
         let crossings = (ss_alarm.and_then(date_at), sc_alarm.and_then(date_at));
         let head = SupplierHead { id: sid, name: ledger.suppliers[sid].name.clone(), invoices: n, amount_total: total, days: (first, last), order: if by_date { "date" } else { "file order" }, undated_invoices: undated, invoices_per_year: per_year };
         let (watch, replay_row) = supplier_result(head, alarm, crossings, evidence_now, traj, estimate, asof_state);

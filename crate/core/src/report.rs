@@ -2,7 +2,7 @@
 //! battery per supplier, for the whole file and for the credit notes, then (when asked) the
 //! sample-size calibration and the false-alarm control across suppliers.
 
-use crate::battery::{self, Battery, BatteryOptions};
+use crate::battery::{self, Battery, BatteryOptions, Indexed, Members};
 use crate::calibrate::{CalibrationOptions, Calibrator, Correction, SupplierCalibration, SupplierInput, Verdict};
 use crate::intake::IntakeInfo;
 use crate::ledger::{Accounting, Invoice, Ledger};
@@ -99,11 +99,14 @@ pub struct Parameters {
 
 pub const CAUTION: &str = "A deviation from Benford's law is a reason to look, not proof of wrongdoing. Many honest suppliers deviate for plain reasons (fixed price lists, subscriptions, regulated fees). Do not confront a supplier or an employee on this alone; follow professional auditing standards, the firm's policies, local law and counsel.";
 
-pub fn population(id: u32, name: &str, invs: &[&Invoice], opts: &ScreenOptions) -> SupplierResult {
+/// One population's result: its totals and the battery. `invs`: a slice of invoices, references
+/// or [`Indexed`] members (see [`Members`]).
+pub fn population<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &ScreenOptions) -> SupplierResult {
     let mut total = Amount::ZERO;
     let (mut lo, mut hi) = (Amount(i64::MAX), Amount(0));
     let (mut d0, mut d1) = (i32::MAX, i32::MIN);
-    for inv in invs {
+    for i in 0..invs.len() {
+        let inv = invs.at(i);
         total = total.saturating_add(inv.amount);
         lo = lo.min(inv.amount);
         hi = hi.max(inv.amount);
@@ -132,13 +135,13 @@ pub fn population(id: u32, name: &str, invs: &[&Invoice], opts: &ScreenOptions) 
     }
 }
 
-fn first_two_counts(s: &SupplierResult, invs: &[&Invoice]) -> Vec<u64> {
+fn first_two_counts<M: Members + ?Sized>(s: &SupplierResult, invs: &M) -> Vec<u64> {
     match &s.tests.first_two {
         Some(t) => t.counts.clone(),
         None => {
             let mut c = vec![0u64; 90];
-            for i in invs {
-                if let Some(d) = i.amount.leading_digits(2) {
+            for i in 0..invs.len() {
+                if let Some(d) = invs.at(i).amount.leading_digits(2) {
                     c[(d - 10) as usize] += 1;
                 }
             }
@@ -254,20 +257,49 @@ pub fn screen(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &Scr
 /// The first half of [`screen`]: every supplier's battery (suppliers with invoices, in id
 /// order) and its first-two digit counts, which calibration reads.
 pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> (Vec<SupplierResult>, Vec<Vec<u64>>) {
-    let groups = ledger.by_supplier();
-    let mut counts = Vec::new();
-    let suppliers: Vec<SupplierResult> = groups
-        .iter()
-        .enumerate()
-        .filter(|(_, g)| !g.is_empty())
-        .map(|(sid, g)| {
-            let invs: Vec<&Invoice> = g.iter().map(|&i| &ledger.invoices[i as usize]).collect();
-            let r = population(sid as u32, &ledger.suppliers[sid].name, &invs, opts);
-            counts.push(first_two_counts(&r, &invs));
-            r
-        })
-        .collect();
-    (suppliers, counts)
+    // Memory: the largest supplier first, read through a list of its own invoice indices (or
+    // the whole file as a slice when it has every invoice); then the others through one exactly
+    // sized index array of theirs (4 bytes per invoice). No list of references is built.
+    let k = ledger.suppliers.len();
+    let mut sizes = vec![0usize; k];
+    for inv in &ledger.invoices {
+        sizes[inv.supplier as usize] += 1;
+    }
+    let big = (0..k).max_by_key(|&s| (sizes[s], std::cmp::Reverse(s))).filter(|&s| sizes[s] > 0);
+    let mut out: Vec<Option<(SupplierResult, Vec<u64>)>> = (0..k).map(|_| None).collect();
+    fn one<M: Members + ?Sized>(ledger: &Ledger, sid: usize, invs: &M, opts: &ScreenOptions) -> Option<(SupplierResult, Vec<u64>)> {
+        let r = population(sid as u32, &ledger.suppliers[sid].name, invs, opts);
+        let c = first_two_counts(&r, invs);
+        Some((r, c))
+    }
+    if let Some(b) = big {
+        out[b] = if sizes[b] == ledger.invoices.len() {
+            one(ledger, b, ledger.invoices.as_slice(), opts)
+        } else {
+            let mut idx: Vec<u32> = Vec::with_capacity(sizes[b]);
+            idx.extend((0..ledger.invoices.len() as u32).filter(|&i| ledger.invoices[i as usize].supplier as usize == b));
+            one(ledger, b, &Indexed { all: &ledger.invoices, idx: &idx }, opts)
+        };
+    }
+    let order = ledger.supplier_order_without(big.map(|b| b as u32));
+    // A supplier of up to WINDOW_MIN invoices is copied out first (one bounded buffer, at most
+    // 1.8 MB, reused): its battery then reads them from cache instead of gathering them from
+    // the whole store on every pass. Larger ones are read in place through their indices.
+    let small = (0..k).filter(|&s| Some(s) != big && sizes[s] <= battery::WINDOW_MIN).map(|s| sizes[s]).max().unwrap_or(0);
+    let mut copy: Vec<Invoice> = Vec::with_capacity(small);
+    for sid in (0..k).filter(|&s| Some(s) != big && sizes[s] > 0) {
+        let idx = order.of(sid);
+        out[sid] = if idx.len() <= battery::WINDOW_MIN {
+            copy.clear();
+            copy.extend(idx.iter().map(|&i| ledger.invoices[i as usize]));
+            one(ledger, sid, copy.as_slice(), opts)
+        } else {
+            one(ledger, sid, &Indexed { all: &ledger.invoices, idx }, opts)
+        };
+    }
+    drop(copy);
+    drop(order);
+    out.into_iter().flatten().unzip()
 }
 
 /// The second half of [`screen`]: calibration with `cal` (made from `opts.calibration`, and
@@ -284,8 +316,6 @@ pub fn finish_screen(
 ) -> ScreenReport {
     let calibration = cal.map(|c| calibrate_list_with(c, &mut suppliers, counts));
     rank(&mut suppliers);
-    let all: Vec<&Invoice> = ledger.invoices.iter().collect();
-    let credits: Vec<&Invoice> = ledger.credit_notes.iter().collect();
     ScreenReport {
         rows: ledger.accounting.clone(),
         intake: info.clone(),
@@ -294,8 +324,8 @@ pub fn finish_screen(
             min_amount,
             approval_limits: opts.battery.approval_limits.clone(),
         },
-        whole_file: population(u32::MAX, "(whole file)", &all, opts),
-        credit_notes: population(u32::MAX, "(credit notes)", &credits, opts),
+        whole_file: population(u32::MAX, "(whole file)", ledger.invoices.as_slice(), opts),
+        credit_notes: population(u32::MAX, "(credit notes)", ledger.credit_notes.as_slice(), opts),
         suppliers,
         calibration,
         caution: CAUTION,

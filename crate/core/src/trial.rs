@@ -14,7 +14,7 @@
 //!    outside the pool stay untouched too; their alarms are reported apart.
 //! 2. **What is injected.** Of an injected supplier's `m` invoices dated on or after `from`
 //!    (all of them when no date is given), `round(share × m)` chosen at random are replaced by
-//!    invented ones with the same date and line, marked [`FLAG_INJECTED`] in the copy
+//!    invented ones with the same date and line, marked [`crate::Invoice::injected`] in the copy
 //!    ([`Trial::copy_ledger`]). Replacing rather than adding keeps the supplier's invoice count
 //!    and timeline, so the calibration compares like with like; the mix the screen sees is
 //!    "a share `share` of this supplier's invoices since `from` were made up". Amounts follow a
@@ -68,7 +68,7 @@ use crate::amount::Amount;
 use crate::benford;
 use crate::calibrate::{adjust, CalibrationOptions, Calibrator, Correction, Moments, Statistic};
 use crate::intake::format_date;
-use crate::ledger::{Ledger, FLAG_INJECTED, NO_DATE};
+use crate::ledger::{Ledger, NO_DATE};
 use crate::monitor::{self, first_two_bin, Family, Monitor, BINS};
 use crate::report::ScreenReport;
 use crate::rng::DetRng;
@@ -497,7 +497,7 @@ impl Trial {
     }
 
     /// The ledger of replication r: a copy of `ledger` (never the original) with the invented
-    /// invoices in place, each marked `FLAG_INJECTED`.
+    /// invoices in place, each marked injected.
     pub fn copy_ledger(&self, ledger: &Ledger, r: u32) -> Ledger {
         let mut copy = ledger.clone();
         for &pi in &self.assignment(r) {
@@ -505,7 +505,7 @@ impl Trial {
             for (pos, a) in self.invent(r, p) {
                 let inv = &mut copy.invoices[p.order[pos as usize] as usize];
                 inv.amount = a;
-                inv.flags |= FLAG_INJECTED;
+                inv.set_injected(true);
             }
         }
         copy

@@ -5,7 +5,7 @@ use digitdrift_core::ledger::{Invoice, NO_DATE};
 use digitdrift_core::Amount;
 
 fn inv(raw: i64, supplier: u32, date: i32, number: u64) -> Invoice {
-    Invoice { amount: Amount(raw), invoice_hash: number, supplier, date, line: 0, flags: 0 }
+    Invoice::new(Amount(raw), number, supplier, date, 0)
 }
 
 fn checks(v: &[Invoice], limits: &[i64]) -> battery::AmountChecks {
@@ -96,7 +96,7 @@ fn duplicates_by_amount_date_and_number() {
     assert_eq!(d.same_number_groups, 1);
     let g = d.groups.iter().find(|g| g.kind == "same_amount_date").unwrap();
     assert_eq!(g.invoices, vec![10, 500]);
-    assert_eq!(g.extra_amount, v[10].amount);
+    assert_eq!(g.extra_amount, { v[10].amount });
     let g = d.groups.iter().find(|g| g.kind == "same_number").unwrap();
     assert_eq!(g.invoices, vec![502, 503]);
     assert_eq!(g.supplier, 3);

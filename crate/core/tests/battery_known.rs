@@ -6,7 +6,7 @@ use digitdrift_core::ledger::{Invoice, NO_DATE};
 use digitdrift_core::{benford, Amount};
 
 fn inv(raw: i64) -> Invoice {
-    Invoice { amount: Amount(raw), invoice_hash: 0, supplier: 0, date: NO_DATE, line: 0, flags: 0 }
+    Invoice::new(Amount(raw), 0, 0, NO_DATE, 0)
 }
 fn units(u: i64) -> Invoice {
     inv(u * 10_000)

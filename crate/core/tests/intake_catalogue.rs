@@ -153,10 +153,11 @@ fn check_one(data_path: &Path, expect: &str) -> Vec<String> {
     for inv in all("invoice") {
         let p: Vec<&str> = inv.split_whitespace().collect();
         let line: u32 = p[0].parse().unwrap();
-        match l.invoices.iter().chain(l.credit_notes.iter()).find(|i| i.line == line) {
+        match l.invoices.iter().chain(l.credit_notes.iter()).find(|i| i.line() == line) {
             None => f(false, format!("no invoice at line {line}")),
             Some(i) => {
-                f(i.amount.to_string() == p[1], format!("line {line}: amount {} != {}", i.amount, p[1]));
+                let a = i.amount;
+                f(a.to_string() == p[1], format!("line {line}: amount {} != {}", a, p[1]));
                 if let Some(d) = p.get(2) {
                     let got = format_date(i.date);
                     let got = if got.is_empty() { "-".to_string() } else { got };

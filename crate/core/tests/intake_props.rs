@@ -67,8 +67,8 @@ fn every_split_point_utf8() {
     // Hand-checked: header on line 3; the quoted field spans lines 4-5; the blank line is 8,
     // the totals line 9 (the amounts above sum to 1234.56 - 89.10 - 12.00 = 1133.46).
     assert_eq!(r.info.header_line, 3);
-    assert_eq!(r.ledger.invoices.iter().map(|i| i.line).collect::<Vec<_>>(), vec![4, 10]);
-    assert_eq!(r.ledger.credit_notes.iter().map(|i| i.line).collect::<Vec<_>>(), vec![6, 7]);
+    assert_eq!(r.ledger.invoices.iter().map(|i| i.line()).collect::<Vec<_>>(), vec![4, 10]);
+    assert_eq!(r.ledger.credit_notes.iter().map(|i| i.line()).collect::<Vec<_>>(), vec![6, 7]);
     assert_eq!(r.ledger.accounting.read, 6);
     assert_eq!(r.ledger.suppliers[0].name, "Müller \"Süd\" GmbH");
 }
@@ -358,5 +358,5 @@ fn large_file_chunkings_agree() {
     assert_eq!(r.ledger.accounting.read, 4000);
     assert_eq!(r.ledger.suppliers.len(), 3);
     // Each record spans two physical lines: record k starts on line 2 + 2k.
-    assert_eq!(r.ledger.invoices[3999].line, 2 + 2 * 3999);
+    assert_eq!(r.ledger.invoices[3999].line(), 2 + 2 * 3999);
 }

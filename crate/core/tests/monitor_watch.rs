@@ -42,14 +42,7 @@ fn ledger(seed: u64) -> (Ledger, i32) {
         rows.swap(i, j);
     }
     for (k, (s, d, x)) in rows.into_iter().enumerate() {
-        l.invoices.push(Invoice {
-            amount: Amount::from_scaled((x * 100.0).floor() as i64, 2).unwrap(),
-            invoice_hash: 0,
-            supplier: s,
-            date: d,
-            line: k as u32 + 2,
-            flags: 0,
-        });
+        l.invoices.push(Invoice::new(Amount::from_scaled((x * 100.0).floor() as i64, 2).unwrap(), 0, s, d, k as u64 + 2));
     }
     (l, switch_day)
 }
@@ -71,7 +64,7 @@ fn alarm_bookkeeping_and_replay() {
     assert_eq!(q.invoices_before_alarm.unwrap() + q.invoices_after_alarm.unwrap(), q.invoices);
     // Paid before the alarm, recomputed here from the ledger in date order (ties by line).
     let mut mine: Vec<&Invoice> = l.invoices.iter().filter(|i| i.supplier == 1).collect();
-    mine.sort_by_key(|i| (i.date, i.line));
+    mine.sort_by_key(|i| (i.date, i.line()));
     let k = q.alarm_invoice.unwrap() as usize;
     let before: i64 = mine[..k].iter().map(|i| i.amount.0).sum();
     assert_eq!(q.paid_before_alarm.unwrap().0, before);

@@ -24,7 +24,6 @@
 
 use digitdrift_core::calibrate::{CalibrationOptions, Correction, Verdict};
 use digitdrift_core::intake::{days_from_civil, format_date, Intake, IntakeOptions, IntakeResult};
-use digitdrift_core::ledger::FLAG_INJECTED;
 use digitdrift_core::monitor::{watch, WatchOptions};
 use digitdrift_core::report::{screen, ScreenOptions};
 use digitdrift_core::trial::{
@@ -216,19 +215,19 @@ fn trial_agrees_with_screen_and_watch_on_its_copy_and_never_touches_the_ledger()
         let li = t.levels().iter().position(|l| (l - 0.95).abs() < 1e-12).unwrap();
         for (r, rep) in t.replications().iter().enumerate() {
             let copy = t.copy_ledger(&res.ledger, r as u32);
-            let marked = copy.invoices.iter().filter(|i| i.flags & FLAG_INJECTED != 0).count() as u32;
+            let marked = copy.invoices.iter().filter(|i| i.injected()).count() as u32;
             assert_eq!(marked, rep.suppliers.iter().map(|s| s.invented).sum::<u32>());
             assert!(marked > 0);
             for (a, b) in copy.invoices.iter().zip(&res.ledger.invoices) {
-                if a.flags & FLAG_INJECTED == 0 {
+                if !a.injected() {
                     assert_eq!(a, b, "an invoice not marked as invented was changed");
                 } else {
-                    assert!(a.date >= from && a.date == b.date && a.line == b.line && a.supplier == b.supplier);
+                    assert!(a.date >= from && a.date == b.date && a.line() == b.line() && a.supplier == b.supplier);
                 }
             }
             if pattern == Pattern::BelowLimit {
                 // Invented amounts just below the supplier's limit: first-two digits 90..99 of it.
-                assert!(copy.invoices.iter().filter(|i| i.flags & FLAG_INJECTED != 0).all(|i| {
+                assert!(copy.invoices.iter().filter(|i| i.injected()).all(|i| {
                     let l = i.amount.leading_digits(2).unwrap();
                     (45..=49).contains(&l) || (90..=99).contains(&l) || (18..=19).contains(&l)
                 }));

@@ -57,6 +57,14 @@ impl BenchIntake {
         BenchIntake { intake: Some(digitdrift_core::intake::Intake::new(Default::default())) }
     }
 
+    /// The file's size (as the page's `Session::setSizeHint`).
+    #[wasm_bindgen(js_name = setSizeHint)]
+    pub fn set_size_hint(&mut self, bytes: f64) {
+        if let Some(i) = self.intake.as_mut() {
+            i.set_size_hint(bytes.max(0.0) as u64);
+        }
+    }
+
     pub fn feed(&mut self, chunk: &[u8]) -> Result<(), JsValue> {
         let it = self.intake.as_mut().ok_or_else(|| JsValue::from_str("intake already finished"))?;
         it.feed(chunk).map_err(|e| JsValue::from_str(&e.to_string()))

@@ -7,6 +7,7 @@ mod chart;
 
 use digitdrift_core::intake::{DateOrder, DecimalConvention, Intake, IntakeOptions, IntakeResult};
 use digitdrift_core::calibrate::{Calibrator, Categorical, NullTable};
+use digitdrift_core::battery::{Indexed, Members};
 use digitdrift_core::{report, Amount, Invoice};
 use serde::Deserialize;
 use wasm_bindgen::prelude::*;
@@ -129,6 +130,15 @@ impl Session {
     pub fn new(options: JsValue) -> Result<Session, JsValue> {
         let o = intake_options(options)?;
         Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None, trial_last: None, pending: None })
+    }
+
+    /// The file's size in bytes (`File.size`), before the first `feed`: the invoice store is
+    /// reserved from it once the first MiB is in, instead of growing by copies.
+    #[wasm_bindgen(js_name = setSizeHint)]
+    pub fn set_size_hint(&mut self, bytes: f64) {
+        if let Some(i) = self.intake.as_mut() {
+            i.set_size_hint(bytes.max(0.0) as u64);
+        }
     }
 
     /// Feed the next chunk of the file, in order.
@@ -323,9 +333,10 @@ impl Session {
     /// `bin` the digit value. Supplier id, or -1 whole file, -2 credit notes.
     #[wasm_bindgen(js_name = binMembers)]
     pub fn bin_members(&self, supplier: i32, test: &str, bin: u32) -> Result<JsValue, JsValue> {
-        let invs = self.population(supplier)?;
-        let idx = digitdrift_core::battery::bin_members(test, bin, &invs);
-        to_js(&self.rows(&invs, &idx))
+        self.with_population(supplier, |invs| {
+            let idx = invs.bin_members(test, bin);
+            to_js(&self.rows(invs, &idx))
+        })
     }
 
     /// Prepare a detection trial on a copy of the ledger (the session's ledger and screen are
@@ -385,9 +396,10 @@ impl Session {
     /// Invoices by index within one population (as listed by the amount checks).
     #[wasm_bindgen(js_name = invoicesAt)]
     pub fn invoices_at(&self, supplier: i32, indices: Vec<u32>) -> Result<JsValue, JsValue> {
-        let invs = self.population(supplier)?;
-        let idx: Vec<usize> = indices.into_iter().map(|i| i as usize).filter(|&i| i < invs.len()).collect();
-        to_js(&self.rows(&invs, &idx))
+        self.with_population(supplier, |invs| {
+            let idx: Vec<usize> = indices.iter().map(|&i| i as usize).filter(|&i| i < invs.len()).collect();
+            to_js(&self.rows(invs, &idx))
+        })
     }
 }
 
@@ -456,29 +468,68 @@ impl Session {
         Ok((o, pool))
     }
 
-    fn population(&self, supplier: i32) -> Result<Vec<&Invoice>, JsValue> {
+    /// Run `f` on one population: the whole file (-1) and the credit notes (-2) as they are
+    /// stored, a supplier through a list of its invoice indices (no copy, no references).
+    fn with_population(&self, supplier: i32, f: impl Fn(&dyn PopulationView) -> Result<JsValue, JsValue>) -> Result<JsValue, JsValue> {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
-        Ok(match supplier {
-            -1 => r.ledger.invoices.iter().collect(),
-            -2 => r.ledger.credit_notes.iter().collect(),
-            id if id >= 0 => r.ledger.invoices_of(id as u32).collect(),
-            _ => return Err(err("no such population")),
-        })
+        match supplier {
+            -1 => f(&Pop(All(&r.ledger.invoices))),
+            -2 => f(&Pop(All(&r.ledger.credit_notes))),
+            id if id >= 0 => {
+                let idx: Vec<u32> = (0..r.ledger.invoices.len() as u32).filter(|&i| r.ledger.invoices[i as usize].supplier == id as u32).collect();
+                f(&Pop(Indexed { all: &r.ledger.invoices, idx: &idx }))
+            }
+            _ => Err(err("no such population")),
+        }
     }
-    fn rows(&self, invs: &[&Invoice], idx: &[usize]) -> Vec<serde_json::Value> {
+    fn rows(&self, invs: &dyn PopulationView, idx: &[usize]) -> Vec<serde_json::Value> {
         let sup = &self.result.as_ref().expect("ledger").ledger.suppliers;
         idx.iter()
             .map(|&i| {
-                let inv = invs[i];
+                let inv = invs.invoice(i);
                 serde_json::json!({
                     "idx": i,
-                    "line": inv.line,
+                    "line": inv.line(),
                     "supplier": sup[inv.supplier as usize].name,
                     "date": digitdrift_core::intake::format_date(inv.date),
-                    "amount": inv.amount.to_string(),
+                    "amount": ({ inv.amount }).to_string(),
                 })
             })
             .collect()
+    }
+}
+
+/// One population for the drill-down, behind one object-safe face (the battery itself stays
+/// generic over [`Members`]; only these on-demand calls go through it).
+trait PopulationView {
+    fn len(&self) -> usize;
+    fn invoice(&self, p: usize) -> Invoice;
+    fn bin_members(&self, test: &str, bin: u32) -> Vec<usize>;
+}
+
+struct Pop<M>(M);
+
+impl<M: Members> PopulationView for Pop<M> {
+    fn len(&self) -> usize {
+        self.0.len()
+    }
+    fn invoice(&self, p: usize) -> Invoice {
+        *self.0.at(p)
+    }
+    fn bin_members(&self, test: &str, bin: u32) -> Vec<usize> {
+        digitdrift_core::battery::bin_members(test, bin, &self.0)
+    }
+}
+
+/// A stored population (the whole file, the credit notes) as [`Members`].
+struct All<'a>(&'a [Invoice]);
+
+impl Members for All<'_> {
+    fn len(&self) -> usize {
+        self.0.len()
+    }
+    fn at(&self, p: usize) -> &Invoice {
+        &self.0[p]
     }
 }
 
@@ -571,6 +622,20 @@ pub fn preview(head: &[u8], options: JsValue) -> Result<JsValue, JsValue> {
     match digitdrift_core::intake::preview(head, &o) {
         Ok(p) => to_js(&serde_json::json!({"ok": true, "preview": p})),
         Err(e) => to_js(&serde_json::json!({"ok": false, "error": e, "message": e.to_string()})),
+    }
+}
+
+/// Size of this module's wasm linear memory in bytes. Linear memory only grows, so after a
+/// screen it is the Worker's peak (for the browser benchmark).
+#[wasm_bindgen(js_name = wasmMemoryBytes)]
+pub fn wasm_memory_bytes() -> f64 {
+    #[cfg(target_arch = "wasm32")]
+    {
+        (core::arch::wasm32::memory_size(0) * 65536) as f64
+    }
+    #[cfg(not(target_arch = "wasm32"))]
+    {
+        0.0
     }
 }
 

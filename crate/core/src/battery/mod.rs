@@ -35,7 +35,8 @@ use crate::amount::{Amount, SCALE};
 use crate::benford;
 use crate::ledger::Invoice;
 use serde::Serialize;
-use sort::{sort_pairs, Keyed};
+use sort::Sorted;
+pub use sort::WINDOW_MIN;
 use std::fmt;
 use std::str::FromStr;
 
@@ -271,36 +272,83 @@ fn uniform(k: usize) -> Vec<f64> {
     vec![1.0 / k as f64; k]
 }
 
-/// Amounts as sort keys (|amount| in amount units), zero amounts left out, sorted by amount
-/// (ties in index order).
-pub(crate) fn sorted_amounts(invoices: &[&Invoice]) -> Vec<Keyed> {
-    let n = invoices.len();
-    let max_key = invoices.iter().map(|inv| inv.amount.0.unsigned_abs()).max().unwrap_or(0);
-    let idx_bits = 64 - (n.max(1) as u64).leading_zeros();
-    if n >= 256 && (64 - max_key.leading_zeros()) + idx_bits <= 64 {
-        // Fast path: pack (amount, index) into one word straight from the invoices.
-        let mut w: Vec<u64> = Vec::with_capacity(n);
-        for (i, inv) in invoices.iter().enumerate() {
-            let v = inv.amount.0.unsigned_abs();
-            if v != 0 {
-                w.push((v << idx_bits) | i as u64);
-            }
-        }
-        sort::radix_sort_u64_from(&mut w, idx_bits);
-        let mask = (1u64 << idx_bits) - 1;
-        return w.iter().map(|&x| Keyed { key: x >> idx_bits, idx: (x & mask) as u32 }).collect();
+/// A population's members, in population order: a slice of invoices (the whole file, the credit
+/// notes), references, or indices into the ledger's invoices ([`Indexed`], a supplier). The
+/// battery reads members through this, so a population needs no copy or list of references.
+pub trait Members {
+    fn len(&self) -> usize;
+    fn at(&self, p: usize) -> &Invoice;
+    fn is_empty(&self) -> bool {
+        self.len() == 0
     }
-    let v: Vec<Keyed> = invoices
-        .iter()
-        .enumerate()
-        .filter(|(_, inv)| inv.amount.0 != 0)
-        .map(|(i, inv)| Keyed { key: inv.amount.0.unsigned_abs(), idx: i as u32 })
-        .collect();
-    sort_pairs(v)
+}
+
+impl Members for [Invoice] {
+    #[inline]
+    fn len(&self) -> usize {
+        <[Invoice]>::len(self)
+    }
+    #[inline]
+    fn at(&self, p: usize) -> &Invoice {
+        &self[p]
+    }
+}
+
+impl Members for [&Invoice] {
+    #[inline]
+    fn len(&self) -> usize {
+        <[&Invoice]>::len(self)
+    }
+    #[inline]
+    fn at(&self, p: usize) -> &Invoice {
+        self[p]
+    }
+}
+
+impl<T> Members for Vec<T>
+where
+    [T]: Members,
+{
+    #[inline]
+    fn len(&self) -> usize {
+        Members::len(self.as_slice())
+    }
+    #[inline]
+    fn at(&self, p: usize) -> &Invoice {
+        self.as_slice().at(p)
+    }
+}
+
+/// Members given as indices (ascending: file order) into a slice of invoices.
+#[derive(Clone, Copy)]
+pub struct Indexed<'a> {
+    pub all: &'a [Invoice],
+    pub idx: &'a [u32],
+}
+
+impl Members for Indexed<'_> {
+    #[inline]
+    fn len(&self) -> usize {
+        self.idx.len()
+    }
+    #[inline]
+    fn at(&self, p: usize) -> &Invoice {
+        &self.all[self.idx[p] as usize]
+    }
+}
+
+/// Calls `f` with a population's nonzero amounts as sort keys (|amount| in amount units),
+/// sorted by amount (ties in index order), window by window in ascending order: each window
+/// holds about a quarter of the members at most ([`sort::windows`]), 8 bytes each.
+pub(crate) fn for_each_sorted_window<M: Members + ?Sized>(invoices: &M, mut f: impl FnMut(&Sorted)) {
+    let amount = |i: usize| invoices.at(i).amount.0.unsigned_abs();
+    for w in sort::windows(invoices.len(), amount) {
+        f(&Sorted::of_window(invoices.len(), amount, w));
+    }
 }
 
 /// Run the selected tests over one population.
-pub fn run(invoices: &[&Invoice], opts: &BatteryOptions) -> Battery {
+pub fn run<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions) -> Battery {
     let t = opts.tests;
     let mut c1 = [0u64; 9];
     let mut c2 = [0u64; 10];
@@ -311,8 +359,8 @@ pub fn run(invoices: &[&Invoice], opts: &BatteryOptions) -> Battery {
     let mut dist_acc = special::DistortionAcc::default();
     let need_pass = t.first || t.second || t.first_two || t.first_three || t.last_two || t.summation || t.distortion;
     if need_pass {
-        for (i, inv) in invoices.iter().enumerate() {
-            let a = inv.amount.abs();
+        for i in 0..invoices.len() {
+            let a = invoices.at(i).amount.abs();
             let Some(d3) = a.leading_digits(3) else { continue };
             let d2 = d3 / 10;
             c1[(d3 / 100 - 1) as usize] += 1;
@@ -355,12 +403,21 @@ pub fn run(invoices: &[&Invoice], opts: &BatteryOptions) -> Battery {
         b.distortion = Some(dist_acc.finish());
     }
     if t.second_order || t.amounts {
-        let sorted = sorted_amounts(invoices);
+        let mut so = special::SecondOrderAcc::default();
+        let mut runs = amounts::RunsAcc::default();
+        for_each_sorted_window(invoices, |sorted| {
+            if t.second_order {
+                so.feed(sorted);
+            }
+            if t.amounts {
+                runs.feed(invoices, sorted, opts);
+            }
+        });
         if t.second_order {
-            b.second_order = Some(special::second_order(&sorted));
+            b.second_order = Some(so.finish());
         }
         if t.amounts {
-            b.amount_checks = Some(amounts::amount_checks(invoices, &sorted, opts));
+            b.amount_checks = Some(amounts::amount_checks(invoices, runs, opts));
         }
     }
     b
@@ -371,46 +428,43 @@ pub fn run(invoices: &[&Invoice], opts: &BatteryOptions) -> Battery {
 /// first_two, first_three, last_two (cents basis; use [`bin_members_with`] for another),
 /// summation (same bins as first_two), second_order (both invoices of every sorted-neighbour
 /// pair whose difference falls in the bin). Unknown test or bin: empty.
-pub fn bin_members(test: &str, bin_value: u32, invoices: &[&Invoice]) -> Vec<usize> {
+pub fn bin_members<M: Members + ?Sized>(test: &str, bin_value: u32, invoices: &M) -> Vec<usize> {
     bin_members_with(test, bin_value, invoices, &BatteryOptions::default())
 }
 
 /// [`bin_members`] honouring the options (the last-two basis).
-pub fn bin_members_with(test: &str, bin_value: u32, invoices: &[&Invoice], opts: &BatteryOptions) -> Vec<usize> {
+pub fn bin_members_with<M: Members + ?Sized>(test: &str, bin_value: u32, invoices: &M, opts: &BatteryOptions) -> Vec<usize> {
+    let members = || (0..invoices.len()).map(|i| (i, invoices.at(i)));
     let pick = |k: u32| -> Vec<usize> {
-        invoices
-            .iter()
-            .enumerate()
-            .filter(|(_, inv)| inv.amount.leading_digits(k) == Some(bin_value))
-            .map(|(i, _)| i)
-            .collect()
+        members().filter(|(_, inv)| inv.amount.leading_digits(k) == Some(bin_value)).map(|(i, _)| i).collect()
     };
     match test {
         "first_digit" | "first" => pick(1),
         "first_two" | "summation" => pick(2),
         "first_three" => pick(3),
-        "second_digit" | "second" => invoices
-            .iter()
-            .enumerate()
+        "second_digit" | "second" => members()
             .filter(|(_, inv)| inv.amount.second_digit() == Some(bin_value))
             .map(|(i, _)| i)
             .collect(),
-        "last_two" => invoices
-            .iter()
-            .enumerate()
+        "last_two" => members()
             .filter(|(_, inv)| opts.last_two_basis.bin(inv.amount) == Some(bin_value))
             .map(|(i, _)| i)
             .collect(),
         "second_order" => {
-            let sorted = sorted_amounts(invoices);
             let mut out = Vec::new();
-            for w in sorted.windows(2) {
-                let d = w[1].key - w[0].key;
-                if d > 0 && Amount(d as i64).leading_digits(2) == Some(bin_value) {
-                    out.push(w[0].idx as usize);
-                    out.push(w[1].idx as usize);
+            let mut prev: Option<(u64, u32)> = None;
+            for_each_sorted_window(invoices, |sorted| {
+                for i in 0..sorted.len() {
+                    let (k, x) = (sorted.key(i), sorted.idx(i));
+                    if let Some((pk, px)) = prev.replace((k, x)) {
+                        let d = k - pk;
+                        if d > 0 && Amount(d as i64).leading_digits(2) == Some(bin_value) {
+                            out.push(px as usize);
+                            out.push(x as usize);
+                        }
+                    }
                 }
-            }
+            });
             out.sort_unstable();
             out.dedup();
             out

@@ -1,7 +1,7 @@
 //! Summation test, second-order test and distortion factor.
 
 use super::digits::DigitTest;
-use super::sort::Keyed;
+use super::sort::Sorted;
 use crate::amount::{Amount, SCALE};
 use crate::benford;
 use crate::stats;
@@ -130,30 +130,53 @@ pub struct SecondOrder {
     pub source: &'static str,
 }
 
-pub(crate) fn second_order(sorted: &[Keyed]) -> SecondOrder {
-    let mut c = vec![0u64; 90];
-    let mut zeros = 0u64;
-    let mut tiny = 0u64;
-    for w in sorted.windows(2) {
-        let d = w[1].key - w[0].key;
+/// The second-order test fed the sorted amounts window by window (ascending): differences of
+/// neighbours, across window edges too.
+pub(crate) struct SecondOrderAcc {
+    c: Vec<u64>,
+    zeros: u64,
+    tiny: u64,
+    prev: Option<u64>,
+    len: usize,
+}
+
+impl Default for SecondOrderAcc {
+    fn default() -> Self {
+        SecondOrderAcc { c: vec![0u64; 90], zeros: 0, tiny: 0, prev: None, len: 0 }
+    }
+}
+
+impl SecondOrderAcc {
+    pub fn feed(&mut self, sorted: &Sorted) {
+        self.len += sorted.len();
+        for i in 0..sorted.len() {
+            let k = sorted.key(i);
+            if let Some(p) = self.prev.replace(k) {
+                self.diff(k - p);
+            }
+        }
+    }
+    fn diff(&mut self, d: u64) {
         if d == 0 {
-            zeros += 1;
-            continue;
+            self.zeros += 1;
+            return;
         }
         if d < (SCALE / 10) as u64 {
-            tiny += 1;
+            self.tiny += 1;
         }
         let d = Amount(d.min(i64::MAX as u64) as i64);
         if let Some(v) = d.leading_digits(2) {
-            c[(v - 10) as usize] += 1;
+            self.c[(v - 10) as usize] += 1;
         }
     }
-    SecondOrder {
-        digits: DigitTest::from_counts("second_order", 10, c, benford::first_two()),
-        differences: sorted.len().saturating_sub(1) as u64,
-        zero_differences: zeros,
-        differences_below_ten_cents: tiny,
-        source: SECOND_ORDER_SOURCE,
+    pub fn finish(self) -> SecondOrder {
+        SecondOrder {
+            digits: DigitTest::from_counts("second_order", 10, self.c, benford::first_two()),
+            differences: self.len.saturating_sub(1) as u64,
+            zero_differences: self.zeros,
+            differences_below_ten_cents: self.tiny,
+            source: SECOND_ORDER_SOURCE,
+        }
     }
 }
 

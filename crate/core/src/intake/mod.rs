@@ -258,11 +258,21 @@ pub struct Intake {
     opts: IntakeOptions,
     bytes_fed: u64,
     state: State,
+    /// The file's size in bytes, when known ([`Intake::set_size_hint`]).
+    size_hint: Option<u64>,
 }
 
 impl Intake {
     pub fn new(opts: IntakeOptions) -> Intake {
-        Intake { opts, bytes_fed: 0, state: State::Head(Vec::new()) }
+        Intake { opts, bytes_fed: 0, state: State::Head(Vec::new()), size_hint: None }
+    }
+
+    /// The whole file's size in bytes, if known before feeding (a file on disk, a browser
+    /// `File`). Once the first MiB is read, the invoice store is reserved for the rows that
+    /// many bytes should hold (plus 1/32), so it is not copied while it grows; without a hint,
+    /// or past the estimate, it grows by 1/8 at a time (see [`push_bounded`]).
+    pub fn set_size_hint(&mut self, total_bytes: u64) {
+        self.size_hint = Some(total_bytes);
     }
 
     /// Feed the next chunk. Chunks may split characters, quoted fields or line breaks anywhere.
@@ -292,6 +302,12 @@ impl Intake {
         if let Err(e) = &r {
             self.state = State::Failed(e.clone());
         }
+        if let (State::Run(run), Some(total)) = (&mut self.state, self.size_hint) {
+            if !run.reserved && (self.bytes_fed >= RESERVE_AFTER || self.bytes_fed >= total) {
+                run.reserved = true;
+                run.reserve_for(self.bytes_fed, total);
+            }
+        }
         r
     }
 
@@ -319,6 +335,20 @@ impl Intake {
         };
         run.finish()
     }
+}
+
+/// Bytes read before the invoice store is reserved from the size hint.
+const RESERVE_AFTER: u64 = 1 << 20;
+
+/// Push onto an invoice store that grows by 1/8 of its length at a time (at least 1,024) rather
+/// than doubling, so its capacity stays within about 12.5 % of its length. (Natively a large
+/// realloc is a remap; in wasm linear memory it is a copy, old and new block at once.)
+#[inline]
+pub(crate) fn push_bounded(v: &mut Vec<Invoice>, inv: Invoice) {
+    if v.len() == v.capacity() {
+        v.reserve_exact((v.len() / 8).max(1024));
+    }
+    v.push(inv);
 }
 
 /// What the head of the file decided.
@@ -362,6 +392,8 @@ struct Run {
     /// Rows whose amount is ambiguous while the convention is undecided (thousands reading,
     /// signed).
     deferred: Vec<Invoice>,
+    /// The store was reserved from the size hint (once).
+    reserved: bool,
     /// (line, month-first reading) of rows whose date was read day-first provisionally.
     date_alts: Vec<(u32, i32)>,
     amb_dec: Vec<String>,
@@ -697,6 +729,7 @@ impl Run {
             raw_map: intern::Interner::default(),
             key_map: HashMap::new(),
             deferred: Vec::new(),
+            reserved: false,
             date_alts: Vec::new(),
             amb_dec: Vec::new(),
             amb_date: Vec::new(),
@@ -1009,14 +1042,7 @@ impl Run {
                 id
             }
         };
-        let inv = Invoice {
-            amount: a,
-            invoice_hash: m.invoice.map_or(0, |c| invoice_hash(rec.field(c))),
-            supplier: id,
-            date,
-            line: line as u32,
-            flags: 0,
-        };
+        let inv = Invoice::new(a, m.invoice.map_or(0, |c| invoice_hash(rec.field(c))), id, date, line);
         if held {
             self.deferred.push(inv);
             return None;
@@ -1027,7 +1053,7 @@ impl Run {
     /// Invoice (signed amount) -> invoices, credit notes or below minimum.
     fn classify(&mut self, mut inv: Invoice) -> Option<ExclusionReason> {
         let acc = &mut self.ledger.accounting;
-        let line = inv.line as u64;
+        let line = inv.line() as u64;
         let a = inv.amount;
         if a.abs() < self.min_amount {
             acc.exclude(ExclusionReason::BelowMinimum, line);
@@ -1036,12 +1062,26 @@ impl Run {
         inv.amount = a.abs();
         if a.is_negative() {
             acc.exclude(ExclusionReason::CreditNote, line);
-            self.ledger.credit_notes.push(inv);
+            push_bounded(&mut self.ledger.credit_notes, inv);
             return Some(ExclusionReason::CreditNote);
         }
         acc.analyse();
-        self.ledger.invoices.push(inv);
+        push_bounded(&mut self.ledger.invoices, inv);
         None
+    }
+
+    /// Reserve the stores for the rows `total` bytes should hold, from the rows in the first
+    /// `fed` bytes, plus 1/32.
+    fn reserve_for(&mut self, fed: u64, total: u64) {
+        let scale = total as f64 / fed.max(1) as f64 * (1.0 + 1.0 / 32.0);
+        // Rows held back (decimal convention undecided) are counted as invoices.
+        let held = self.deferred.len();
+        for (v, extra) in [(&mut self.ledger.invoices, held), (&mut self.ledger.credit_notes, 0)] {
+            let want = ((v.len() + extra) as f64 * scale).ceil() as usize + 16;
+            if want > v.capacity() {
+                v.reserve_exact(want - v.len());
+            }
+        }
     }
 
     fn set_decimal(&mut self, c: DecimalConvention) {
@@ -1057,8 +1097,9 @@ impl Run {
             }
             self.classify(inv);
         }
-        self.ledger.invoices.sort_by_key(|i| i.line);
-        self.ledger.credit_notes.sort_by_key(|i| i.line);
+        // Every invoice has its own line: an in-place sort gives the one order.
+        self.ledger.invoices.sort_unstable_by_key(|i| i.line());
+        self.ledger.credit_notes.sort_unstable_by_key(|i| i.line());
         for e in &mut self.ledger.accounting.exclusions {
             e.rows.sort_unstable();
         }
@@ -1072,7 +1113,7 @@ impl Run {
         }
         let map: HashMap<u32, i32> = alts.into_iter().collect();
         for inv in self.ledger.invoices.iter_mut().chain(self.ledger.credit_notes.iter_mut()).chain(self.deferred.iter_mut()) {
-            if let Some(&d) = map.get(&inv.line) {
+            if let Some(&d) = map.get(&inv.line()) {
                 inv.date = d;
             }
         }
@@ -1174,7 +1215,10 @@ impl Run {
             date_order,
             warnings,
         };
-        let ledger = std::mem::take(&mut self.ledger);
+        let mut ledger = std::mem::take(&mut self.ledger);
+        // Give back what the estimate or the last growth step left unused (in place).
+        ledger.invoices.shrink_to_fit();
+        ledger.credit_notes.shrink_to_fit();
         Ok(IntakeResult { ledger, info })
     }
 }
@@ -1182,6 +1226,63 @@ impl Run {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    /// The store grows by 1/8 (at least 1,024), never doubling: capacity stays within 12.5 %
+    /// (+1,024) of the length at every push. (The bound is our own memory target, issue 9.)
+    #[test]
+    fn store_growth_is_bounded() {
+        let mut v: Vec<Invoice> = Vec::new();
+        let mut grows = 0;
+        for i in 0..300_000u64 {
+            let cap = v.capacity();
+            push_bounded(&mut v, Invoice::new(Amount(i as i64 + 1), 0, 0, crate::ledger::NO_DATE, i + 2));
+            grows += (v.capacity() != cap) as u32;
+            assert!(v.capacity() <= v.len() + v.len() / 8 + 1024, "len {} cap {}", v.len(), v.capacity());
+        }
+        assert!(grows > 10, "grew {grows} times");
+    }
+
+    /// With the file's size known, the store is reserved once from the first MiB and ends
+    /// exactly sized; without it, it also ends exactly sized. Same rows either way.
+    #[test]
+    fn size_hint_reserves_once_and_store_ends_exact() {
+        let mut text = String::from("Supplier,Invoice No,Date,Amount\n");
+        for i in 0..60_000u32 {
+            text.push_str(&format!("Supplier {},N{i},2024-03-{:02},{}.{:02}\n", i % 7, 1 + i % 28, 10 + (i * 7919) % 90_000, i % 100));
+            if i % 10 == 0 {
+                text.push_str(&format!("Supplier 1,C{i},2024-04-01,-{}.00\n", 15 + i % 50));
+            }
+        }
+        let bytes = text.as_bytes();
+        let run = |hint: bool| {
+            let mut it = Intake::new(IntakeOptions::default());
+            if hint {
+                it.set_size_hint(bytes.len() as u64);
+            }
+            let mut caps = Vec::new();
+            for c in bytes.chunks(1 << 16) {
+                it.feed(c).unwrap();
+                if let State::Run(r) = &it.state {
+                    caps.push(r.ledger.invoices.capacity());
+                }
+            }
+            (it.finish().unwrap().ledger, caps)
+        };
+        let (with, caps) = run(true);
+        let (without, _) = run(false);
+        assert_eq!(with.invoices, without.invoices);
+        assert_eq!(with.credit_notes, without.credit_notes);
+        assert_eq!((with.invoices.len(), with.credit_notes.len()), (60_000, 6_000));
+        for l in [&with, &without] {
+            assert_eq!(l.invoices.capacity(), l.invoices.len());
+            assert_eq!(l.credit_notes.capacity(), l.credit_notes.len());
+        }
+        // Reserved once the first MiB was in (16 chunks of 64 KiB), then not grown again: the
+        // rows are alike, so the estimate (+1/32) covers the file.
+        let after = &caps[16..];
+        assert!(after.windows(2).all(|w| w[0] == w[1]), "{caps:?}");
+        assert!(after[0] >= 60_000 && after[0] <= 60_000 + 60_000 / 16, "{}", after[0]);
+    }
 
     #[test]
     fn epoch_days() {
