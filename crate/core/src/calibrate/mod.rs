@@ -5,7 +5,8 @@
 //!
 //! - **Null distributions** of MAD, chi-square, KS and max |Z| over honest (Benford) samples of
 //!   size n, by exact multinomial sampling ([`sample`]) with a seeded generator ([`crate::rng`]).
-//!   They are simulated once per n on a log-spaced grid (8 points per decade) and cached; for n
+//!   They are simulated once per n on a log-spaced grid (8 points per decade up to 10,000
+//!   invoices, 2 a decade beyond, where the scaled distributions hardly move) and cached; for n
 //!   between grid points the two neighbouring tables are used with the statistic rescaled by
 //!   sqrt(n) (MAD and KS shrink like 1/sqrt(n); chi-square and max |Z| are scale-free) and the
 //!   results interpolated linearly in log n. Below [`EXACT_BELOW`] invoices every n gets its own
@@ -40,11 +41,18 @@ use std::collections::HashMap;
 
 /// Number of first-two-digit bins (10..=99).
 pub const BINS: usize = 90;
-/// Grid points per decade of n for the cached null tables.
+/// Grid points per decade of n for the cached null tables, up to 10^COARSE_FROM_DECADE.
 pub const GRID_PER_DECADE: u32 = 8;
+/// From 10^COARSE_FROM_DECADE invoices on, the grid has COARSE_PER_DECADE points a decade: there
+/// the sqrt(n)-scaled null distributions hardly change with n (the scaled 95th percentile of
+/// MAD is 0.0904-0.091 from n = 1,000 to 10,000 in the numpy run quoted in calibrate_checks),
+/// and each table costs the most to simulate.
+pub const COARSE_FROM_DECADE: u32 = 4;
+pub const COARSE_PER_DECADE: u32 = 2;
 /// Every n below this gets its own null table instead of grid interpolation.
 pub const EXACT_BELOW: u64 = 100;
-/// Power-curve checkpoints per decade (a subset of the null grid).
+/// Power-curve checkpoints per decade up to 10^COARSE_FROM_DECADE (every other grid point);
+/// beyond, every (coarse) grid point.
 pub const POWER_PER_DECADE: u32 = 4;
 
 const TAG_NULL: u64 = 0x6e75_6c6c; // "null"
@@ -246,9 +254,9 @@ impl NullTable {
             cols[2].push(s.ks);
             cols[3].push(s.max_z);
         }
+        let mut scratch = Vec::new();
         for col in cols.iter_mut() {
-            // total_cmp-equal values are bit-identical, so an unstable sort gives the same column
-            col.sort_unstable_by(|a, b| a.total_cmp(b));
+            sort_f64(col, &mut scratch);
         }
         NullTable { n, sorted: cols }
     }
@@ -316,6 +324,58 @@ impl NullTable {
     }
 }
 
+/// Sort ascending in `f64::total_cmp` order, by an LSD radix sort over the bytes of the
+/// order-preserving integer image of each value (sign bit flipped for positives, all bits for
+/// negatives); bytes on which all keys agree are skipped. The result is the same as
+/// `sort_unstable_by(total_cmp)`: total_cmp-equal values are bit-identical.
+pub fn sort_f64(v: &mut [f64], scratch: &mut Vec<u64>) {
+    #[inline(always)]
+    fn key(x: f64) -> u64 {
+        let b = x.to_bits();
+        if b >> 63 == 1 { !b } else { b | (1 << 63) }
+    }
+    #[inline(always)]
+    fn unkey(k: u64) -> f64 {
+        f64::from_bits(if k >> 63 == 1 { k & !(1 << 63) } else { !k })
+    }
+    let n = v.len();
+    if n < 64 {
+        v.sort_unstable_by(|a, b| a.total_cmp(b));
+        return;
+    }
+    let mut a: Vec<u64> = v.iter().map(|&x| key(x)).collect();
+    scratch.clear();
+    scratch.resize(n, 0);
+    let mut hist = vec![[0u32; 256]; 8];
+    for &k in &a {
+        for (d, h) in hist.iter_mut().enumerate() {
+            h[((k >> (8 * d)) & 0xff) as usize] += 1;
+        }
+    }
+    let mut src = &mut a;
+    let mut dst = scratch;
+    for (d, h) in hist.iter().enumerate() {
+        if h.iter().any(|&c| c as usize == n) {
+            continue; // every key has the same byte here
+        }
+        let mut pos = [0u32; 256];
+        let mut acc = 0u32;
+        for (p, &c) in pos.iter_mut().zip(h.iter()) {
+            *p = acc;
+            acc += c;
+        }
+        for &k in src.iter() {
+            let b = ((k >> (8 * d)) & 0xff) as usize;
+            dst[pos[b] as usize] = k;
+            pos[b] += 1;
+        }
+        std::mem::swap(&mut src, &mut dst);
+    }
+    for (x, &k) in v.iter_mut().zip(src.iter()) {
+        *x = unkey(k);
+    }
+}
+
 /// Threads used natively to simulate a batch of missing null tables ([`Calibrator::prepare`]).
 pub const TABLE_THREADS: usize = 2;
 
@@ -342,16 +402,29 @@ pub fn split_sizes(ns: &[u64], parts: usize) -> Vec<Vec<u64>> {
     out
 }
 
-/// The grid point g's sample size: round(10^(g / GRID_PER_DECADE)).
+/// The grid point g's sample size: round(10^(g / GRID_PER_DECADE)) up to 10^COARSE_FROM_DECADE,
+/// then round(10^(COARSE_FROM_DECADE + (g - g_c) / COARSE_PER_DECADE)) beyond (g_c the grid
+/// index of 10^COARSE_FROM_DECADE).
 pub fn grid_n(g: u32) -> u64 {
-    libm::round(libm::pow(10.0, g as f64 / GRID_PER_DECADE as f64)) as u64
+    let gc = COARSE_FROM_DECADE * GRID_PER_DECADE;
+    let e = if g <= gc {
+        g as f64 / GRID_PER_DECADE as f64
+    } else {
+        COARSE_FROM_DECADE as f64 + (g - gc) as f64 / COARSE_PER_DECADE as f64
+    };
+    libm::round(libm::pow(10.0, e)) as u64
 }
 
 /// Largest grid index with grid_n(g) <= n (n >= 1).
 fn grid_floor(n: u64) -> u32 {
-    let mut g = libm::floor(GRID_PER_DECADE as f64 * libm::log10(n as f64)) as i64;
-    g = g.max(0);
-    let mut g = g as u32;
+    let l = libm::log10(n as f64);
+    let gc = COARSE_FROM_DECADE * GRID_PER_DECADE;
+    let g = if l <= COARSE_FROM_DECADE as f64 {
+        libm::floor(GRID_PER_DECADE as f64 * l)
+    } else {
+        gc as f64 + libm::floor(COARSE_PER_DECADE as f64 * (l - COARSE_FROM_DECADE as f64))
+    };
+    let mut g = g.max(0.0) as u32;
     while grid_n(g + 1) <= n {
         g += 1;
     }
@@ -359,6 +432,16 @@ fn grid_floor(n: u64) -> u32 {
         g -= 1;
     }
     g
+}
+
+/// The grid index of the power checkpoint after the one at grid index g: every other grid point
+/// (POWER_PER_DECADE a decade) up to 10^COARSE_FROM_DECADE, every grid point beyond.
+fn next_checkpoint(g: u32) -> u32 {
+    if g < COARSE_FROM_DECADE * GRID_PER_DECADE {
+        g + GRID_PER_DECADE / POWER_PER_DECADE
+    } else {
+        g + 1
+    }
 }
 
 /// First-two digit probabilities of a continuous uniform on [a, b] (0 < a <= b): the overlap of
@@ -637,7 +720,7 @@ impl Calibrator {
     }
 
     /// Power curve of the calibrated MAD test against `model` at the checkpoints
-    /// 10^(j/4) (j = 4, 5, ...), by `power_sims` nested paths: path i is one growing honest-or-
+    /// 10^(j/4) (j = 4, 5, ..., 16; then 10^(j/2), j = 9, 10, ...), by `power_sims` nested paths: path i is one growing honest-or-
     /// fabricated invoice stream from (seed, "power", i), its counts at each checkpoint an exact
     /// multinomial draw of that size. Stops at the first checkpoint >= `at_least` whose power is
     /// >= max(target, 0.95), or at `max_invoices`.
@@ -649,7 +732,6 @@ impl Calibrator {
         let mut rngs: Vec<DetRng> = (0..sims as u64).map(|i| DetRng::stream(self.opts.seed, &[TAG_POWER, i])).collect();
         let mut out = Vec::new();
         let mut prev = 0u64;
-        let step = GRID_PER_DECADE / POWER_PER_DECADE;
         let mut g = GRID_PER_DECADE; // n = 10
         loop {
             let n = grid_n(g);
@@ -671,7 +753,7 @@ impl Calibrator {
             if power >= target.max(0.95) && n >= at_least {
                 break;
             }
-            g += step;
+            g = next_checkpoint(g);
         }
         out
     }
@@ -718,7 +800,7 @@ impl Calibrator {
     /// Calibrate a whole supplier list with the chosen correction across it (q = 1 - confidence).
     pub fn ledger(&mut self, inputs: &[SupplierInput]) -> LedgerCalibration {
         // All null tables first, over threads: those of the suppliers' own sizes and the power
-        // checkpoints every curve passes (10^(j/4) up to the first at or above the largest n).
+        // checkpoints every curve passes (every checkpoint up to the first at or above the largest n).
         let ns: Vec<u64> = inputs.iter().map(|s| s.first_two_counts.iter().sum()).collect();
         let ns = self.ledger_sizes(&ns);
         self.prepare(&ns, self.threads);
@@ -741,7 +823,7 @@ impl Calibrator {
         self.missing_tables(&self.ledger_sizes(ns))
     }
 
-    /// The suppliers' sizes and the power checkpoints every curve passes (10^(j/4) up to the
+    /// The suppliers' sizes and the power checkpoints every curve passes (up to the
     /// first at or above the largest n).
     fn ledger_sizes(&self, ns: &[u64]) -> Vec<u64> {
         let mut ns = ns.to_vec();
@@ -752,7 +834,7 @@ impl Calibrator {
             if grid_n(g) >= nmax {
                 break;
             }
-            g += GRID_PER_DECADE / POWER_PER_DECADE;
+            g = next_checkpoint(g);
         }
         ns
     }
@@ -843,10 +925,22 @@ mod tests {
     fn grid_brackets() {
         assert_eq!(grid_n(8), 10);
         assert_eq!(grid_n(24), 1000);
-        for n in [100u64, 101, 999, 1000, 1001, 54_321, 99_999] {
+        assert_eq!(grid_n(32), 10_000);
+        assert_eq!(grid_n(33), 31_623);
+        assert_eq!(grid_n(34), 100_000);
+        assert!((1..60).all(|g| grid_n(g) > grid_n(g - 1) || grid_n(g) < 10), "grid ascending");
+        for n in [100u64, 101, 999, 1000, 1001, 9_999, 10_000, 10_001, 31_622, 31_623, 54_321, 99_999, 100_000, 5_000_000] {
             let g = grid_floor(n);
             assert!(grid_n(g) <= n && n < grid_n(g + 1), "{n}");
         }
+        // power checkpoints: 10^(1/4) steps to 10,000, then 10^(1/2)
+        let mut g = 8;
+        let mut cps = vec![];
+        while grid_n(g) <= 100_000 {
+            cps.push(grid_n(g));
+            g = next_checkpoint(g);
+        }
+        assert_eq!(cps, [10, 18, 32, 56, 100, 178, 316, 562, 1000, 1778, 3162, 5623, 10_000, 31_623, 100_000]);
     }
 
     #[test]
@@ -862,6 +956,28 @@ mod tests {
         assert!((s.ks - crate::stats::ks(&c, &p)).abs() < 1e-12);
         let mz = (0..90).map(|i| crate::stats::z_stat(c[i], 777, p[i])).fold(0.0, f64::max);
         assert!((s.max_z - mz).abs() < 1e-9);
+    }
+
+    #[test]
+    fn radix_sort_matches_total_cmp_sort() {
+        let mut rng = DetRng::seed_from_u64(11);
+        let mut scratch = Vec::new();
+        for n in [0usize, 1, 63, 64, 65, 1000, 10_000] {
+            let mut v: Vec<f64> = (0..n)
+                .map(|i| match i % 7 {
+                    0 => -0.0,
+                    1 => 0.0,
+                    2 => -(rng.next_f64() * 1e6),
+                    3 => f64::INFINITY,
+                    4 => (rng.below(50) as f64) * 0.25, // ties
+                    _ => rng.next_f64() * libm::pow(10.0, (rng.below(40) as f64) - 20.0),
+                })
+                .collect();
+            let mut want = v.clone();
+            want.sort_unstable_by(|a, b| a.total_cmp(b));
+            sort_f64(&mut v, &mut scratch);
+            assert_eq!(v.iter().map(|x| x.to_bits()).collect::<Vec<_>>(), want.iter().map(|x| x.to_bits()).collect::<Vec<_>>(), "n={n}");
+        }
     }
 
     #[test]
