@@ -28,6 +28,7 @@
 //! suppliers are calibrated, and native and wasm builds give identical numbers.
 
 pub mod fdr;
+pub mod power;
 pub mod sample;
 
 pub use fdr::{adjust, Adjusted, Correction};
@@ -172,6 +173,32 @@ impl Moments {
             s += libm::fabs(ci as i64 as f64 - e);
         }
         s / (self.n as f64 * self.e.len() as f64)
+    }
+
+    /// MAD of the counts h + f (h: u32 counts, f: u64 counts, both of length >= the bins).
+    #[inline]
+    pub fn mad_sum(&self, h: &[u32], f: &[u64]) -> f64 {
+        if self.n == 0 {
+            return 0.0;
+        }
+        let k = self.e.len();
+        let (h, f, e) = (&h[..k], &f[..k], &self.e[..k]);
+        // four running sums (lanes), so that the loop can be vectorised; the same order of
+        // additions on every platform
+        let mut lane = [0.0f64; 4];
+        let mut i = 0;
+        while i + 4 <= k {
+            for l in 0..4 {
+                lane[l] += libm::fabs((h[i + l] as u64 + f[i + l]) as i64 as f64 - e[i + l]);
+            }
+            i += 4;
+        }
+        let mut s = (lane[0] + lane[1]) + (lane[2] + lane[3]);
+        while i < k {
+            s += libm::fabs((h[i] as u64 + f[i]) as i64 as f64 - e[i]);
+            i += 1;
+        }
+        s / (self.n as f64 * k as f64)
     }
 
     /// All four statistics.
@@ -515,8 +542,11 @@ pub struct SupplierCalibration {
     /// The p-value after the correction across the list (None for a single-supplier call).
     pub adjusted_p_value: Option<f64>,
     pub verdict: Verdict,
-    /// Power at this n against 100 % evenly spread fabricated amounts (basis of `too_few`).
+    /// Power at this n against 100 % evenly spread fabricated amounts (basis of `too_few`),
+    /// estimated from `power_full_sims` samples (a sequential decision against the target
+    /// power: fewer samples when the answer is clear early; see [`power`]).
     pub power_full_fabrication: f64,
+    pub power_full_sims: u32,
     /// Smallest n at which the deviation model is detected with the chosen power; None when
     /// not reached by `max_invoices`.
     pub invoices_needed: Option<u64>,
@@ -555,13 +585,27 @@ pub struct Calibrator {
     benford: Categorical,
     tables: HashMap<u64, NullTable>,
     threads: usize,
+    /// Honest parts of the even-spread power paths, shared by every supplier's curve.
+    honest: Option<power::HonestPaths>,
+    /// The sequential power decision's bounds for (target power bits).
+    seq_bounds: Option<(u64, Vec<(u32, i64, i64)>)>,
+    /// Power work done per supplier key (here or by another Worker).
+    powers: HashMap<power::PowerKey, power::PowerResult>,
 }
 
 impl Calibrator {
     pub fn new(opts: CalibrationOptions) -> Calibrator {
         assert!(opts.sims >= 1, "sims >= 1");
         assert!(opts.confidence > 0.0 && opts.confidence < 1.0, "0 < confidence < 1");
-        Calibrator { opts, benford: Categorical::new(&benford::first_two()), tables: HashMap::new(), threads: TABLE_THREADS }
+        Calibrator {
+            opts,
+            benford: Categorical::new(&benford::first_two()),
+            tables: HashMap::new(),
+            threads: TABLE_THREADS,
+            honest: None,
+            seq_bounds: None,
+            powers: HashMap::new(),
+        }
     }
 
     pub fn options(&self) -> &CalibrationOptions {
@@ -722,9 +766,10 @@ impl Calibrator {
     /// Power curve of the calibrated MAD test against `model` at the checkpoints
     /// 10^(j/4) (j = 4, 5, ..., 16; then 10^(j/2), j = 9, 10, ...), by `power_sims` nested paths: path i is one growing honest-or-
     /// fabricated invoice stream from (seed, "power", i), its counts at each checkpoint an exact
-    /// multinomial draw of that size. Stops at the first checkpoint >= `at_least` whose power is
-    /// >= max(target, 0.95), or at `max_invoices`.
-    pub fn power_curve(&mut self, model: &[f64], target: f64, at_least: u64) -> Vec<PowerPoint> {
+    /// multinomial draw of that size. Stops at the first checkpoint whose power is
+    /// >= max(target, 0.95) (detection is then all but certain at any larger size: the curve is
+    /// not drawn further, whatever the supplier's own size), or at `max_invoices`.
+    pub fn power_curve(&mut self, model: &[f64], target: f64) -> Vec<PowerPoint> {
         let cat = Categorical::new(model);
         let sims = self.opts.power_sims.max(1) as usize;
         let alpha = self.alpha();
@@ -750,7 +795,7 @@ impl Calibrator {
             let power = hits as f64 / sims as f64;
             out.push(PowerPoint { invoices: n, power });
             prev = n;
-            if power >= target.max(0.95) && n >= at_least {
+            if power >= target.max(0.95) {
                 break;
             }
             g = next_checkpoint(g);
@@ -794,7 +839,8 @@ impl Calibrator {
         let base = self.null_only(first_two_counts);
         assert_eq!(base.invoices, n, "n must equal the sum of the first-two counts");
         let alarm = base.mc_p_value <= self.alpha();
-        self.finish(base, None, alarm, first_two_counts, amount_min, amount_max)
+        let input = SupplierInput { first_two_counts: first_two_counts.to_vec(), amount_min, amount_max };
+        self.finish(base, None, alarm, &input)
     }
 
     /// Calibrate a whole supplier list with the chosen correction across it (q = 1 - confidence).
@@ -804,13 +850,14 @@ impl Calibrator {
         let ns: Vec<u64> = inputs.iter().map(|s| s.first_two_counts.iter().sum()).collect();
         let ns = self.ledger_sizes(&ns);
         self.prepare(&ns, self.threads);
+        self.powers(inputs, self.threads);
         let bases: Vec<NullCalibration> = inputs.iter().map(|s| self.null_only(&s.first_two_counts)).collect();
         let ps: Vec<f64> = bases.iter().map(|b| b.mc_p_value).collect();
         let q = self.alpha();
         let adj = adjust(&ps, self.opts.correction, q);
         let mut suppliers = Vec::with_capacity(inputs.len());
         for ((inp, base), a) in inputs.iter().zip(bases).zip(&adj) {
-            suppliers.push(self.finish(base, Some(a.adjusted_p), a.alarm, &inp.first_two_counts, inp.amount_min, inp.amount_max));
+            suppliers.push(self.finish(base, Some(a.adjusted_p), a.alarm, inp));
         }
         let alarm_indices: Vec<usize> = adj.iter().enumerate().filter(|(_, a)| a.alarm).map(|(i, _)| i).collect();
         LedgerCalibration { correction: self.opts.correction, q, alarms: alarm_indices.len(), alarm_indices, suppliers }
@@ -839,20 +886,9 @@ impl Calibrator {
         ns
     }
 
-    fn finish(
-        &mut self,
-        base: NullCalibration,
-        adjusted: Option<f64>,
-        alarm: bool,
-        counts: &[u64],
-        amount_min: Amount,
-        amount_max: Amount,
-    ) -> SupplierCalibration {
+    fn finish(&mut self, base: NullCalibration, adjusted: Option<f64>, alarm: bool, input: &SupplierInput) -> SupplierCalibration {
         let n = base.invoices;
-        let full = even_spread(amount_min, amount_max, 1.0);
-        let power_full = self.power_at(&full, n, TAG_FULL);
-        let model = self.deviation_probs(counts, amount_min, amount_max);
-        let curve = self.power_curve(&model, self.opts.power, n);
+        let power::PowerResult { power_full, power_full_sims, curve } = self.power_of(input);
         let needed = Self::invoices_needed(&curve, self.opts.power);
         let verdict = if alarm {
             Verdict::Deviates
@@ -872,6 +908,7 @@ impl Calibrator {
             adjusted_p_value: adjusted,
             verdict,
             power_full_fabrication: power_full,
+            power_full_sims,
             invoices_needed: needed,
             more_invoices_needed: needed.map(|m| m.saturating_sub(n)),
             power_curve: curve,
@@ -888,17 +925,33 @@ impl Calibrator {
 /// A range that is empty or not positive falls back to a point mass at the larger amount's
 /// digits, or to Benford when both are zero.
 fn even_spread(amount_min: Amount, amount_max: Amount, share: f64) -> [f64; BINS] {
+    match even_spread_uniform(amount_min, amount_max) {
+        Some(u) => {
+            let p = benford::first_two();
+            let s = share.clamp(0.0, 1.0);
+            std::array::from_fn(|i| (1.0 - s) * p[i] + s * u[i])
+        }
+        None => {
+            let p = benford::first_two();
+            std::array::from_fn(|i| p[i])
+        }
+    }
+}
+
+/// The first-two digit law of amounts uniform over the supplier's range (absolute values, in
+/// currency units); a range whose lower end is not positive is taken as the point at the upper
+/// end. None when both ends are zero (the even-spread model then falls back to Benford).
+fn even_spread_uniform(amount_min: Amount, amount_max: Amount) -> Option<[f64; BINS]> {
     let (a, b) = {
         let x = amount_min.abs().to_f64();
         let y = amount_max.abs().to_f64();
         (x.min(y), x.max(y))
     };
     if b <= 0.0 {
-        let p = benford::first_two();
-        return std::array::from_fn(|i| p[i]);
+        return None;
     }
     let a = if a <= 0.0 { b } else { a };
-    even_spread_mixture(a, b, share)
+    Some(uniform_first_two(a, b))
 }
 
 #[cfg(test)]
