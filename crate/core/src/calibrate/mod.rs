@@ -17,15 +17,18 @@
 //! - **Verdict** uses the MAD, the statistic practitioners read, calibrated to n.
 //!   `deviates`: the (corrected, when a list is calibrated) p-value is at most 1 - confidence;
 //!   otherwise `too_few` when even a supplier whose amounts are 100 % fabricated, spread evenly
-//!   over its own amount range, would be detected with less than the chosen power at this n;
-//!   otherwise `consistent`. A deviation is a reason to look, not proof of anything.
+//!   over its own amount range, would be detected with less than the chosen power at this n
+//!   (decided sequentially, [`power`]); otherwise `consistent`. A deviation is a reason to look,
+//!   not proof of anything.
 //! - **Invoices needed**: the smallest n at which a deviation model (default: a share s of
 //!   invoices fabricated with amounts uniform over the supplier's own range) is detected with the
-//!   chosen power, from a simulated power curve.
+//!   chosen power, from a simulated power curve ([`power`]: the honest part of the paths is
+//!   shared by all suppliers).
 //!
 //! Determinism: each table is simulated from a stream derived from (seed, purpose, n), and each
 //! power path from (seed, purpose, path index), so results never depend on the order in which
-//! suppliers are calibrated, and native and wasm builds give identical numbers.
+//! suppliers are calibrated, nor on how tables and suppliers are split over threads or Workers,
+//! and native and wasm builds give identical numbers.
 
 pub mod fdr;
 pub mod power;
@@ -620,6 +623,11 @@ impl Calibrator {
     pub fn table(&mut self, n: u64) -> &NullTable {
         let (b, sims, seed) = (&self.benford, self.opts.sims, self.opts.seed);
         self.tables.entry(n).or_insert_with(|| NullTable::simulate(b, n, sims, seed))
+    }
+
+    /// The cached table at exactly n, if simulated already.
+    pub fn cached_table(&self, n: u64) -> Option<&NullTable> {
+        self.tables.get(&n)
     }
 
     /// Number of cached tables.
