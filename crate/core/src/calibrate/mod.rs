@@ -127,19 +127,58 @@ pub struct CountStats {
     pub max_z: f64,
 }
 
-/// Per-n constants for the count-based statistics.
+/// Per-n constants for the count-based statistics, padded with zeros to a multiple of
+/// [`LANES`] bins (padded bins add exactly 0 to every sum and maximum).
 #[derive(Clone, Debug)]
 pub struct Moments {
     n: u64,
+    /// Number of bins (before padding).
+    k: usize,
     e: Vec<f64>,
     inv_e: Vec<f64>,
     cum_e: Vec<f64>,
     inv_sd: Vec<f64>,
 }
 
+/// Running sums and maxima kept per lane, so that the loops over bins vectorise; the lanes are
+/// combined as (l0 + l1) + (l2 + l3), the same order on every platform.
+pub const LANES: usize = 4;
+
+/// A bin count: u64 for observed counts, u32 for simulated ones (half the memory traffic).
+pub trait Count: Copy + Default + Send + Sync + 'static {
+    fn to_u64(self) -> u64;
+    fn add_u64(&mut self, x: u64);
+}
+impl Count for u64 {
+    #[inline(always)]
+    fn to_u64(self) -> u64 {
+        self
+    }
+    #[inline(always)]
+    fn add_u64(&mut self, x: u64) {
+        *self += x;
+    }
+}
+impl Count for u32 {
+    #[inline(always)]
+    fn to_u64(self) -> u64 {
+        self as u64
+    }
+    #[inline(always)]
+    fn add_u64(&mut self, x: u64) {
+        *self += x as u32;
+    }
+}
+
 impl Moments {
     pub fn new(n: u64, p: &[f64]) -> Moments {
         let nf = n as f64;
+        let k = p.len();
+        let k4 = k.div_ceil(LANES) * LANES;
+        let pad = |mut v: Vec<f64>| {
+            v.resize(k4, 0.0);
+            v
+        };
         let e: Vec<f64> = p.iter().map(|&x| nf * x).collect();
         let inv_e = e.iter().map(|&x| if x > 0.0 { 1.0 / x } else { 0.0 }).collect();
         let mut acc = 0.0;
@@ -157,88 +196,93 @@ impl Moments {
                 if v > 0.0 { 1.0 / libm::sqrt(v) } else { 0.0 }
             })
             .collect();
-        Moments { n, e, inv_e, cum_e, inv_sd }
+        Moments { n, k, e: pad(e), inv_e: pad(inv_e), cum_e: pad(cum_e), inv_sd: pad(inv_sd) }
     }
 
     pub fn n(&self) -> u64 {
         self.n
     }
 
-    /// MAD = mean_i |c_i / n - p_i| (Nigrini 2012, as in [`crate::stats::mad`]).
-    #[inline]
-    pub fn mad(&self, c: &[u64]) -> f64 {
-        if self.n == 0 {
-            return 0.0;
+    /// Sum over bins of |c_i - e_i|, c_i = count(i), with the lane order of [`LANES`].
+    #[inline(always)]
+    fn sum_abs_dev(&self, count: impl Fn(usize) -> u64) -> f64 {
+        let mut lane = [0.0f64; LANES];
+        for (j, ee) in self.e.chunks_exact(LANES).enumerate() {
+            for l in 0..LANES {
+                let i = j * LANES + l;
+                let c = if i < self.k { count(i) as i64 as f64 } else { 0.0 };
+                lane[l] += libm::fabs(c - ee[l]);
+            }
         }
-        let mut s = 0.0;
-        let c = &c[..self.e.len()];
-        for (&ci, &e) in c.iter().zip(&self.e) {
-            s += libm::fabs(ci as i64 as f64 - e);
-        }
-        s / (self.n as f64 * self.e.len() as f64)
+        (lane[0] + lane[1]) + (lane[2] + lane[3])
     }
 
-    /// MAD of the counts h + f (h: u32 counts, f: u64 counts, both of length >= the bins).
+    /// MAD = mean_i |c_i / n - p_i| (Nigrini 2012, as in [`crate::stats::mad`]).
     #[inline]
-    pub fn mad_sum(&self, h: &[u32], f: &[u64]) -> f64 {
+    pub fn mad<C: Count>(&self, c: &[C]) -> f64 {
         if self.n == 0 {
             return 0.0;
         }
-        let k = self.e.len();
-        let (h, f, e) = (&h[..k], &f[..k], &self.e[..k]);
-        // four running sums (lanes), so that the loop can be vectorised; the same order of
-        // additions on every platform
-        let mut lane = [0.0f64; 4];
-        let mut i = 0;
-        while i + 4 <= k {
-            for l in 0..4 {
-                lane[l] += libm::fabs((h[i + l] as u64 + f[i + l]) as i64 as f64 - e[i + l]);
-            }
-            i += 4;
+        let c = &c[..self.k];
+        self.sum_abs_dev(|i| c[i].to_u64()) / (self.n as f64 * self.k as f64)
+    }
+
+    /// MAD of the counts h + f (both of length >= the bins).
+    #[inline]
+    pub fn mad_sum<C: Count>(&self, h: &[u32], f: &[C]) -> f64 {
+        if self.n == 0 {
+            return 0.0;
         }
-        let mut s = (lane[0] + lane[1]) + (lane[2] + lane[3]);
-        while i < k {
-            s += libm::fabs((h[i] as u64 + f[i]) as i64 as f64 - e[i]);
-            i += 1;
-        }
-        s / (self.n as f64 * k as f64)
+        let (h, f) = (&h[..self.k], &f[..self.k]);
+        self.sum_abs_dev(|i| h[i] as u64 + f[i].to_u64()) / (self.n as f64 * self.k as f64)
     }
 
     /// All four statistics.
-    pub fn stats(&self, c: &[u64]) -> CountStats {
+    pub fn stats<C: Count>(&self, c: &[C]) -> CountStats {
         if self.n == 0 {
             return CountStats { mad: 0.0, chi_square: 0.0, ks: 0.0, max_z: 0.0 };
         }
         let nf = self.n as f64;
-        let (mut sad, mut chi, mut ks, mut mz) = (0.0f64, 0.0f64, 0.0f64, 0.0f64);
-        // Counts are converted through i64 (one instruction on x86_64; the same value below
-        // 2^63) and cumulated as integers (exact, so the same as a float running sum below
-        // 2^53). inv_sd[i] is 0 where p_i is 0 or 1, so num * inv_sd[i] is the 0 of z_stat there.
-        // No statistic is NaN, so plain comparisons give the same maxima as f64::max.
-        let k = self.e.len();
-        let (e, inv_e, cum_e, inv_sd) = (&self.e[..k], &self.inv_e[..k], &self.cum_e[..k], &self.inv_sd[..k]);
-        let c = &c[..k];
-        let mut cum = 0i64;
-        for i in 0..k {
-            let ci = c[i] as i64;
-            let d = ci as f64 - e[i];
-            let ad = libm::fabs(d);
-            sad += ad;
-            chi += d * d * inv_e[i];
-            cum += ci;
-            let dk = libm::fabs(cum as f64 - cum_e[i]);
-            if dk > ks {
-                ks = dk;
+        let c = &c[..self.k];
+        let (mut sad, mut chi, mut ks, mut mz) = ([0.0f64; LANES], [0.0f64; LANES], [0.0f64; LANES], [0.0f64; LANES]);
+        // The counts and their running sum as f64 (exact: integers below 2^53); the padding
+        // (count 0, e = cum_e = inv_sd = 0) adds 0 to every sum and maximum.
+        let mut acc = 0u64;
+        let chunks = self.e.chunks_exact(LANES).zip(self.inv_e.chunks_exact(LANES)).zip(self.cum_e.chunks_exact(LANES)).zip(self.inv_sd.chunks_exact(LANES));
+        for (j, (((e, inv_e), cum_e), inv_sd)) in chunks.enumerate() {
+            let mut cf = [0.0f64; LANES];
+            let mut cum = [0.0f64; LANES];
+            for l in 0..LANES {
+                let i = j * LANES + l;
+                if i < self.k {
+                    let x = c[i].to_u64();
+                    acc += x;
+                    cf[l] = x as i64 as f64;
+                    cum[l] = acc as i64 as f64;
+                }
             }
-            // continuity correction of 1/(2n) in proportions = 0.5 in counts, applied only
-            // when smaller than the difference (as crate::stats::z_stat)
-            let num = if 0.5 < ad { ad - 0.5 } else { ad };
-            let z = num * inv_sd[i];
-            if z > mz {
-                mz = z;
+            for l in 0..LANES {
+                let d = cf[l] - e[l];
+                let ad = libm::fabs(d);
+                sad[l] += ad;
+                chi[l] += d * d * inv_e[l];
+                let dk = libm::fabs(cum[l] - cum_e[l]);
+                ks[l] = if dk > ks[l] { dk } else { ks[l] };
+                // continuity correction of 1/(2n) in proportions = 0.5 in counts, applied only
+                // when smaller than the difference (as crate::stats::z_stat); inv_sd is 0 where
+                // p_i is 0 or 1, the 0 of z_stat there
+                let num = if 0.5 < ad { ad - 0.5 } else { ad };
+                let z = num * inv_sd[l];
+                mz[l] = if z > mz[l] { z } else { mz[l] };
             }
         }
-        CountStats { mad: sad / (nf * self.e.len() as f64), chi_square: chi, ks: ks / nf, max_z: mz }
+        let max4 = |v: [f64; LANES]| v.iter().fold(0.0f64, |m, &x| if x > m { x } else { m });
+        CountStats {
+            mad: ((sad[0] + sad[1]) + (sad[2] + sad[3])) / (nf * self.k as f64),
+            chi_square: (chi[0] + chi[1]) + (chi[2] + chi[3]),
+            ks: max4(ks) / nf,
+            max_z: max4(mz),
+        }
     }
 }
 
@@ -274,15 +318,23 @@ impl NullTable {
         let mom = Moments::new(n, benford.probs());
         let mut rng = DetRng::stream(seed, &[TAG_NULL, n]);
         let mut cols: [Vec<f64>; 4] = std::array::from_fn(|_| Vec::with_capacity(sims as usize));
-        let mut c = [0u64; BINS];
-        for _ in 0..sims {
-            c.iter_mut().for_each(|x| *x = 0);
-            benford.add(&mut rng, n, &mut c);
-            let s = mom.stats(&c);
-            cols[0].push(s.mad);
-            cols[1].push(s.chi_square);
-            cols[2].push(s.ks);
-            cols[3].push(s.max_z);
+        fn run<C: Count>(benford: &Categorical, n: u64, sims: u32, rng: &mut DetRng, mom: &Moments, cols: &mut [Vec<f64>; 4]) {
+            let mut c = [C::default(); BINS];
+            for _ in 0..sims {
+                c.iter_mut().for_each(|x| *x = C::default());
+                benford.add(rng, n, &mut c);
+                let s = mom.stats(&c);
+                cols[0].push(s.mad);
+                cols[1].push(s.chi_square);
+                cols[2].push(s.ks);
+                cols[3].push(s.max_z);
+            }
+        }
+        // u32 counts (half the memory traffic) wherever no bin can overflow them
+        if n <= u32::MAX as u64 {
+            run::<u32>(benford, n, sims, &mut rng, &mom, &mut cols);
+        } else {
+            run::<u64>(benford, n, sims, &mut rng, &mom, &mut cols);
         }
         let mut scratch = Vec::new();
         for col in cols.iter_mut() {
@@ -594,12 +646,15 @@ pub struct Calibrator {
     seq_bounds: Option<(u64, Vec<(u32, i64, i64)>)>,
     /// Power work done per supplier key (here or by another Worker).
     powers: HashMap<power::PowerKey, power::PowerResult>,
+    /// Power curves per model (amount range, and the counts' hash for the observed profile).
+    curves: HashMap<(i64, i64, u64), Vec<PowerPoint>>,
 }
 
 impl Calibrator {
     pub fn new(opts: CalibrationOptions) -> Calibrator {
         assert!(opts.sims >= 1, "sims >= 1");
         assert!(opts.confidence > 0.0 && opts.confidence < 1.0, "0 < confidence < 1");
+        assert!(opts.max_invoices < 1 << 31, "power paths count in u32: max_invoices < 2^31");
         Calibrator {
             opts,
             benford: Categorical::new(&benford::first_two()),
@@ -608,6 +663,7 @@ impl Calibrator {
             honest: None,
             seq_bounds: None,
             powers: HashMap::new(),
+            curves: HashMap::new(),
         }
     }
 

@@ -38,7 +38,7 @@ pub(super) struct HonestPaths {
     honest: Vec<Vec<u32>>,
     rngs: Vec<DetRng>,
     cur_f: Vec<u64>,
-    cur_h: Vec<[u64; BINS]>,
+    cur_h: Vec<[u32; BINS]>,
 }
 
 impl HonestPaths {
@@ -51,7 +51,7 @@ impl HonestPaths {
             honest: Vec::new(),
             rngs: (0..sims as u64).map(|i| DetRng::stream(seed, &[TAG_HONEST, i])).collect(),
             cur_f: vec![0; sims],
-            cur_h: vec![[0; BINS]; sims],
+            cur_h: vec![[0u32; BINS]; sims],
         }
     }
 
@@ -72,7 +72,7 @@ impl HonestPaths {
                 self.cur_f[i] += df;
                 benford.add(rng, dm - df, &mut self.cur_h[i]);
                 fab.push(self.cur_f[i] as u32);
-                honest.extend(self.cur_h[i].iter().map(|&x| x as u32));
+                honest.extend_from_slice(&self.cur_h[i]);
             }
             self.grid.push(g);
             self.fab.push(fab);
@@ -143,7 +143,7 @@ impl Calibrator {
         let bounds = &self.seq_bounds.as_ref().expect("bounds").1;
         let mut hits = 0i64;
         let mut done = 0u32;
-        let mut c = [0u64; BINS];
+        let mut c = [0u64; BINS]; // a supplier's n may exceed u32 counts
         for &(k, lo, hi) in bounds {
             while done < k {
                 c.iter_mut().for_each(|x| *x = 0);
@@ -168,7 +168,7 @@ impl Calibrator {
         self.ensure_honest();
         let cat = Categorical::new(uniform);
         let alpha = self.alpha();
-        let mut fab = vec![[0u64; BINS]; sims];
+        let mut fab = vec![[0u32; BINS]; sims]; // counts <= max_invoices
         let mut rngs: Vec<DetRng> = (0..sims as u64).map(|i| DetRng::stream(self.opts.seed, &[TAG_POWER, i])).collect();
         let mut out = Vec::new();
         let mut j = 0usize;
@@ -270,11 +270,21 @@ impl Calibrator {
         let (amin, amax) = (input.amount_min, input.amount_max);
         let full = even_spread(amin, amax, 1.0);
         let (power_full, power_full_sims) = self.power_sequential(&full, n, TAG_FULL, self.opts.power);
-        let curve = match (self.opts.deviation_model, even_spread_uniform(amin, amax)) {
-            (DeviationModel::EvenSpread, Some(u)) => self.power_curve_mixture(&u, self.opts.power),
-            _ => {
-                let model = self.deviation_probs(&input.first_two_counts, amin, amax);
-                self.power_curve(&model, self.opts.power)
+        // the curve depends on the model only (not on n): suppliers with the same amount range
+        // (and, for the observed profile, the same counts) share it
+        let ckey = (key.amount_min, key.amount_max, key.profile);
+        let curve = match self.curves.get(&ckey) {
+            Some(c) => c.clone(),
+            None => {
+                let c = match (self.opts.deviation_model, even_spread_uniform(amin, amax)) {
+                    (DeviationModel::EvenSpread, Some(u)) => self.power_curve_mixture(&u, self.opts.power),
+                    _ => {
+                        let model = self.deviation_probs(&input.first_two_counts, amin, amax);
+                        self.power_curve(&model, self.opts.power)
+                    }
+                };
+                self.curves.insert(ckey, c.clone());
+                c
             }
         };
         let r = PowerResult { power_full, power_full_sims, curve };
@@ -344,6 +354,7 @@ impl Calibrator {
             honest: self.honest.clone(),
             seq_bounds: self.seq_bounds.clone(),
             powers: HashMap::new(),
+            curves: HashMap::new(),
         }
     }
 }

@@ -18,6 +18,7 @@
 //! All floating point work uses `libm` (pure Rust) so the same seed gives the same counts on
 //! every platform.
 
+use super::Count;
 use crate::rng::DetRng;
 
 pub const MAX_BINS: usize = 128;
@@ -141,7 +142,7 @@ impl Categorical {
 
     /// Add a Multinomial(n, p) draw to `counts` (length >= k), by the faster exact method.
     #[inline]
-    pub fn add(&self, rng: &mut DetRng, n: u64, counts: &mut [u64]) {
+    pub fn add<C: Count>(&self, rng: &mut DetRng, n: u64, counts: &mut [C]) {
         if n <= GUIDE_MAX_N {
             self.add_guided(rng, n, counts)
         } else {
@@ -150,7 +151,7 @@ impl Categorical {
     }
 
     /// Guide-table method, one category look-up per invoice.
-    pub fn add_guided(&self, rng: &mut DetRng, n: u64, counts: &mut [u64]) {
+    pub fn add_guided<C: Count>(&self, rng: &mut DetRng, n: u64, counts: &mut [C]) {
         assert!(counts.len() >= self.k);
         // u32 local counters: split huge n into chunks that cannot overflow them
         let mut left = n;
@@ -175,7 +176,7 @@ impl Categorical {
         j
     }
 
-    fn guided_chunk(&self, rng: &mut DetRng, n: u64, counts: &mut [u64]) {
+    fn guided_chunk<C: Count>(&self, rng: &mut DetRng, n: u64, counts: &mut [C]) {
         // Two counter arrays, one per half of each 64-bit draw, so that two invoices landing in
         // the same bin do not wait on each other's increment; summed at the end (same counts).
         let mut c0 = [0u32; MAX_BINS];
@@ -191,16 +192,16 @@ impl Categorical {
             c0[Self::category(guide, thr, rng.next_u32()) & (MAX_BINS - 1)] += 1;
         }
         for i in 0..self.k {
-            counts[i] += (c0[i] + c1[i]) as u64;
+            counts[i].add_u64((c0[i] + c1[i]) as u64);
         }
     }
 
     /// Binomial splitting: the invoices of each tree node are split between its halves by one
     /// Binomial(n_node, P(left | node)) draw, from the root down (breadth first).
-    pub fn add_binomial(&self, rng: &mut DetRng, n: u64, counts: &mut [u64]) {
+    pub fn add_binomial<C: Count>(&self, rng: &mut DetRng, n: u64, counts: &mut [C]) {
         assert!(counts.len() >= self.k);
         if self.split.is_empty() {
-            counts[0] += n;
+            counts[0].add_u64(n);
             return;
         }
         let mut node_n = [0u64; MAX_BINS];
@@ -210,7 +211,7 @@ impl Categorical {
             let l = binomial(rng, m, sp.left_p);
             for (side, x) in [(sp.left, l), (sp.right, m - l)] {
                 if side & LEAF != 0 {
-                    counts[(side & !LEAF) as usize] += x;
+                    counts[(side & !LEAF) as usize].add_u64(x);
                 } else {
                     node_n[side as usize] = x;
                 }
