@@ -244,44 +244,41 @@ impl Moments {
         }
         let nf = self.n as f64;
         let c = &c[..self.k];
-        let (mut sad, mut chi, mut ks, mut mz) = ([0.0f64; LANES], [0.0f64; LANES], [0.0f64; LANES], [0.0f64; LANES]);
+        let (mut sad, mut chi) = ([0.0f64; LANES], [0.0f64; LANES]);
+        // maxima do not depend on the order: plain running values
+        let (mut ks, mut mz) = (0.0f64, 0.0f64);
         // The counts and their running sum as f64 (exact: integers below 2^53); the padding
         // (count 0, e = cum_e = inv_sd = 0) adds 0 to every sum and maximum.
         let mut acc = 0u64;
         let chunks = self.e.chunks_exact(LANES).zip(self.inv_e.chunks_exact(LANES)).zip(self.cum_e.chunks_exact(LANES)).zip(self.inv_sd.chunks_exact(LANES));
         for (j, (((e, inv_e), cum_e), inv_sd)) in chunks.enumerate() {
-            let mut cf = [0.0f64; LANES];
-            let mut cum = [0.0f64; LANES];
             for l in 0..LANES {
                 let i = j * LANES + l;
-                if i < self.k {
-                    let x = c[i].to_u64();
-                    acc += x;
-                    cf[l] = x as i64 as f64;
-                    cum[l] = acc as i64 as f64;
-                }
-            }
-            for l in 0..LANES {
-                let d = cf[l] - e[l];
-                let ad = libm::fabs(d);
+                let x = if i < self.k { c[i].to_u64() } else { 0 };
+                acc += x;
+                let d = x as i64 as f64 - e[l];
+                let ad = d.abs();
                 sad[l] += ad;
                 chi[l] += d * d * inv_e[l];
-                let dk = libm::fabs(cum[l] - cum_e[l]);
-                ks[l] = if dk > ks[l] { dk } else { ks[l] };
+                // cum_e is 0 in the padding, where acc = n: inv_sd's 0 keeps z at 0 there, and
+                // KS takes only the real bins
+                if i < self.k {
+                    let dk = (acc as i64 as f64 - cum_e[l]).abs();
+                    ks = if dk > ks { dk } else { ks };
+                }
                 // continuity correction of 1/(2n) in proportions = 0.5 in counts, applied only
                 // when smaller than the difference (as crate::stats::z_stat); inv_sd is 0 where
                 // p_i is 0 or 1, the 0 of z_stat there
                 let num = if 0.5 < ad { ad - 0.5 } else { ad };
                 let z = num * inv_sd[l];
-                mz[l] = if z > mz[l] { z } else { mz[l] };
+                mz = if z > mz { z } else { mz };
             }
         }
-        let max4 = |v: [f64; LANES]| v.iter().fold(0.0f64, |m, &x| if x > m { x } else { m });
         CountStats {
             mad: ((sad[0] + sad[1]) + (sad[2] + sad[3])) / (nf * self.k as f64),
             chi_square: (chi[0] + chi[1]) + (chi[2] + chi[3]),
-            ks: max4(ks) / nf,
-            max_z: max4(mz),
+            ks: ks / nf,
+            max_z: mz,
         }
     }
 }

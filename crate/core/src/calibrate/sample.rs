@@ -22,8 +22,18 @@ use super::Count;
 use crate::rng::DetRng;
 
 pub const MAX_BINS: usize = 128;
-const GUIDE_BITS: u32 = 14;
-const GUIDE: usize = 1 << GUIDE_BITS;
+/// Guide-table size (bits) for distributions sampled millions of times (Benford's law): 16,384
+/// one-byte entries, about 0.5 % of which straddle a threshold. [`Categorical::small`] makes a
+/// 1,024-entry table for distributions sampled less (quicker to build, more walks).
+pub const GUIDE_BITS: u32 = 14;
+const SMALL_GUIDE_BITS: u32 = 10;
+
+/// A guide table of 2^BITS entries (fixed sizes, so that look-ups need no bounds check).
+#[derive(Clone, Debug)]
+enum Guide {
+    Large(Box<[u8; 1 << GUIDE_BITS]>),
+    Small(Box<[u8; 1 << SMALL_GUIDE_BITS]>),
+}
 /// Guide entry flag: the entry straddles a threshold (walk from its first category).
 const WALK: u8 = 0x80;
 
@@ -39,7 +49,9 @@ pub struct Categorical {
     /// thr[i] = round(2^32 * (p_0 + ... + p_i)); thr[i] = 2^32 for i >= k-1 (padded to 128 so
     /// that every index a guide entry can produce is in bounds without a check).
     thr: Box<[u64; MAX_BINS]>,
-    guide: Box<[u8; GUIDE]>,
+    /// The category of the first 32-bit value of each bucket, WALK-flagged when the bucket
+    /// straddles a threshold.
+    guide: Guide,
     /// The binary splitting tree, breadth first: node j sends each of its invoices left with
     /// probability `split[j].left_p`.
     split: Vec<Split>,
@@ -60,6 +72,16 @@ impl Categorical {
     /// From non-negative weights (normalised here). Panics on an empty, all-zero or
     /// over-long (> 128) input, or on a negative or non-finite weight.
     pub fn new(weights: &[f64]) -> Categorical {
+        Categorical::build(weights, GUIDE_BITS)
+    }
+
+    /// As [`Categorical::new`] with a 1,024-entry guide table. The table size changes only
+    /// speed, never the counts drawn.
+    pub fn small(weights: &[f64]) -> Categorical {
+        Categorical::build(weights, SMALL_GUIDE_BITS)
+    }
+
+    fn build(weights: &[f64], bits: u32) -> Categorical {
         let k = weights.len();
         assert!(k >= 1 && k <= MAX_BINS, "1..=128 categories");
         assert!(weights.iter().all(|w| w.is_finite() && *w >= 0.0), "weights must be finite and >= 0");
@@ -81,8 +103,9 @@ impl Categorical {
         // Zero-weight categories must never be drawn: their threshold interval is empty
         // (t == prev) by construction. A positive weight rounded to an empty interval has
         // probability < 2^-33, the documented quantisation.
-        let mut guide = Box::new([0u8; GUIDE]);
-        let width = 1u64 << (32 - GUIDE_BITS);
+        let mut table = vec![0u8; 1 << bits];
+        let guide = &mut table;
+        let width = 1u64 << (32 - bits);
         let mut j = 0usize;
         for (b, slot) in guide.iter_mut().enumerate() {
             let lo = b as u64 * width;
@@ -121,6 +144,11 @@ impl Categorical {
             split.push(Split { left_p, left, right });
             j += 1;
         }
+        let guide = if bits == GUIDE_BITS {
+            Guide::Large(table.into_boxed_slice().try_into().expect("guide size"))
+        } else {
+            Guide::Small(table.into_boxed_slice().try_into().expect("guide size"))
+        };
         Categorical { k, probs, thr, guide, split }
     }
 
@@ -164,8 +192,9 @@ impl Categorical {
 
     /// The category of the 32-bit uniform u (same answer as a plain search of `thr`).
     #[inline(always)]
-    fn category(guide: &[u8; GUIDE], thr: &[u64; MAX_BINS], u: u32) -> usize {
-        let g = guide[(u >> (32 - GUIDE_BITS)) as usize];
+    fn category<const N: usize>(guide: &[u8; N], thr: &[u64; MAX_BINS], u: u32) -> usize {
+        // N = 2^bits: the bucket u >> (32 - bits) = (u as u64 * N) >> 32 is always < N
+        let g = guide[((u as u64 * N as u64) >> 32) as usize];
         if g & WALK == 0 {
             return g as usize;
         }
@@ -177,12 +206,33 @@ impl Categorical {
     }
 
     fn guided_chunk<C: Count>(&self, rng: &mut DetRng, n: u64, counts: &mut [C]) {
+        match &self.guide {
+            Guide::Large(g) => self.guided_with(&**g, rng, n, counts),
+            Guide::Small(g) => self.guided_with(&**g, rng, n, counts),
+        }
+    }
+
+    #[inline(always)]
+    fn guided_with<C: Count, const N: usize>(&self, guide: &[u8; N], rng: &mut DetRng, n: u64, counts: &mut [C]) {
+        let thr: &[u64; MAX_BINS] = &self.thr;
+        let counts = &mut counts[..self.k];
+        if n < 64 {
+            // few invoices: straight into the counts (clearing and summing local counters
+            // would cost more than the draws)
+            for _ in 0..n / 2 {
+                let x = rng.next_u64();
+                counts[Self::category(guide, thr, x as u32)].add_u64(1);
+                counts[Self::category(guide, thr, (x >> 32) as u32)].add_u64(1);
+            }
+            if n % 2 == 1 {
+                counts[Self::category(guide, thr, rng.next_u32())].add_u64(1);
+            }
+            return;
+        }
         // Two counter arrays, one per half of each 64-bit draw, so that two invoices landing in
         // the same bin do not wait on each other's increment; summed at the end (same counts).
         let mut c0 = [0u32; MAX_BINS];
         let mut c1 = [0u32; MAX_BINS];
-        let guide: &[u8; GUIDE] = &self.guide;
-        let thr: &[u64; MAX_BINS] = &self.thr;
         for _ in 0..n / 2 {
             let x = rng.next_u64();
             c0[Self::category(guide, thr, x as u32) & (MAX_BINS - 1)] += 1;
@@ -322,7 +372,9 @@ fn binomial_btrs(rng: &mut DetRng, n: u64, r: f64) -> u64 {
     let nf = n as f64;
     let q = 1.0 - r;
     let npq = nf * r * q;
-    let spq = libm::sqrt(npq);
+    // IEEE 754 square root is correctly rounded, so the hardware instruction (sqrtsd, wasm's
+    // f64.sqrt) gives the same bits on every platform, and much faster than a software one
+    let spq = npq.sqrt();
     let b = 1.15 + 2.53 * spq;
     let a = -0.0873 + 0.0248 * b + 0.01 * r;
     let c = nf * r + 0.5;
