@@ -45,9 +45,14 @@ async function* slicesInTurn(blob) {
 async function openLedger(id, blob, name, options, settings) {
   cancelled = false;
   session = new wasm_bindgen.Session(options || {});
+  if (!keepTables) session.keepTables(false);
   const total = blob.size;
   let done = 0;
   const t0 = performance.now();
+  // While this Worker reads the file, the helper simulates the null tables almost every screen
+  // reads (the power-curve checkpoints): kept for this ledger's screens.
+  const likely = helperWanted && keepTables && helper && helper.ready ? wasm_bindgen.likelyTables(settings || {}) : null;
+  const ahead = likely && likely.ns.length ? helperTables(helper, { theirs: likely.ns, sims: likely.sims, seed: likely.seed }) : null;
   for await (const { buf, end } of slices(blob)) {
     if (cancelled) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
     session.feed(buf);
@@ -55,6 +60,10 @@ async function openLedger(id, blob, name, options, settings) {
     post({ progress: true, id, done, total, rows: session.rowsSoFar() });
   }
   const intake = session.finish();
+  if (ahead) {
+    const t = await ahead;
+    if (t) session.holdTables(new Float64Array(likely.ns), t, likely.sims, likely.seed);
+  }
   if (!intake.ok) { post({ id, ok: true, value: { name, intake } }); return; }
   post({ progress: true, id, done, total, rows: intake.rows.read, stage: 'screening' });
   const res = await screenSplit(settings || {}, true);
@@ -134,6 +143,7 @@ async function helperPowers(h, share) {
 // {screen, workers, timing} or, when `cancellable` and Cancel came, null. Without a helper
 // (or when it fails) this Worker simulates every table, one per call, Cancel between.
 let helperWanted = true;
+let keepTables = true;
 async function screenSplit(settings, cancellable) {
   const t0 = performance.now();
   const plan = session.screenPlan(settings);
@@ -165,7 +175,7 @@ async function screenSplit(settings, cancellable) {
   // Power work: half the suppliers to the helper (with the tables simulated here, which it
   // lacks), half here, a few per call so that a Cancel gets in. Every result depends only on
   // the options, the tables and the supplier: the same numbers as one Worker.
-  const pp = session.powerPlan(new Float64Array(plan.mine), !!(tables && helper === h && h.ready));
+  const pp = session.powerPlan(new Float64Array(plan.theirs), !!(tables && helper === h && h.ready));
   const powers = pp.theirs ? helperPowers(h, pp.theirs) : null;
   for (;;) {
     const left = session.powerStep(8);
@@ -235,6 +245,8 @@ const handlers = {
   async rescreen({ id, settings }) { const r = await screenSplit(settings || {}, false); post({ id, ok: true, value: r.screen, workers: r.workers, powerWorkers: r.powerWorkers, timing: r.timing }); },
   // Benchmark and tests: screen without (false) or with (true, the default) the helper Worker.
   async useHelper({ id, on }) { helperWanted = !!on; if (!on) stopHelper(); else startHelper(); post({ id, ok: true, value: helperWanted }); },
+  // Benchmark: keep null tables between screens (true, the default) or time every screen cold.
+  async keepTables({ id, on }) { keepTables = !!on; if (session) session.keepTables(keepTables); post({ id, ok: true, value: keepTables }); },
   // The helper's one job: null tables for another Worker's screen (see screenSplit).
   async tables({ ns, sims, seed }) {
     const t = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);

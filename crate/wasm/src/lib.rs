@@ -81,6 +81,12 @@ pub struct Session {
     trial_last: Option<digitdrift_core::trial::TrialReport>,
     /// A screen between `screenPlan` and `screenFinish` (batteries done, calibration to come).
     pending: Option<PendingScreen>,
+    /// Null tables kept from earlier screens and from `holdTables` (seed, sims, tables): each
+    /// depends only on (seed, sims, n), so a later screen with the same seed and sims reads them
+    /// as they are.
+    tables: (u64, u32, Vec<NullTable>),
+    /// Keep tables between screens (the benchmark turns it off to time cold screens).
+    keep_tables: bool,
 }
 
 /// The batteries of a screen and its calibrator, while null tables are simulated ahead (part
@@ -127,8 +133,35 @@ pub fn null_tables(ns: &[f64], sims: u32, seed: f64) -> Vec<f64> {
             out.extend_from_slice(c);
         }
     }
-    HELPER_TABLES.with(|h| *h.borrow_mut() = Some((sims, seed as u64, tables)));
+    HELPER_TABLES.with(|h| {
+        let mut h = h.borrow_mut();
+        match h.as_mut() {
+            Some((s, sd, ts)) if *s == sims && *sd == seed as u64 => {
+                for t in tables {
+                    if !ts.iter().any(|k| k.n == t.n) {
+                        ts.push(t);
+                    }
+                }
+            }
+            _ => *h = Some((sims, seed as u64, tables)),
+        }
+    });
     out
+}
+
+/// The null tables almost every screen with these settings reads, whatever the ledger
+/// (`Calibrator::likely_tables`): `{ns, sims, seed}`, for the helper Worker to simulate while
+/// the file is read (empty when calibration is off).
+#[wasm_bindgen(js_name = likelyTables)]
+pub fn likely_tables(settings: JsValue) -> Result<JsValue, JsValue> {
+    let opts = screen_options(settings)?;
+    match opts.calibration {
+        Some(c) => {
+            let cal = Calibrator::new(c);
+            to_js(&serde_json::json!({"ns": cal.likely_tables(), "sims": cal.options().sims, "seed": cal.options().seed}))
+        }
+        None => to_js(&serde_json::json!({"ns": [], "sims": 0, "seed": 0})),
+    }
 }
 
 thread_local! {
@@ -213,7 +246,7 @@ impl Session {
     #[wasm_bindgen(constructor)]
     pub fn new(options: JsValue) -> Result<Session, JsValue> {
         let o = intake_options(options)?;
-        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None, trial_last: None, pending: None })
+        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None, trial_last: None, pending: None, tables: (0, 0, Vec::new()), keep_tables: true })
     }
 
     /// Feed the next chunk of the file, in order.
@@ -261,7 +294,15 @@ impl Session {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         let opts = screen_options(settings)?;
         let (suppliers, counts) = report::supplier_batteries(&r.ledger, &opts);
-        let cal = opts.calibration.as_ref().map(|c| Calibrator::new(c.clone()));
+        let mut cal = opts.calibration.as_ref().map(|c| Calibrator::new(c.clone()));
+        if let Some(c) = cal.as_mut() {
+            let (seed, sims) = (c.options().seed, c.options().sims);
+            if self.keep_tables && self.tables.0 == seed && self.tables.1 == sims {
+                for t in &self.tables.2 {
+                    c.insert_table(t.clone());
+                }
+            }
+        }
         let (parts, sims, seed) = match &cal {
             Some(c) => {
                 let need = report::calibration_tables(c, &suppliers, &counts);
@@ -300,13 +341,14 @@ impl Session {
 
     /// After the null tables: split the pending screen's power work in two (suppliers by size,
     /// the costliest first, dealt in turn). Returns `{theirs: {options, ns, tables, inputs}}`
-    /// for `powerShare` in the other Worker (`ns`/`tables`: the null tables simulated here, which
-    /// that Worker lacks; `inputs`: its suppliers, flat), or `{theirs: null}` when calibration is
-    /// off or there is too little to share. This Worker's share is done by `powerStep`.
+    /// for `powerShare` in the other Worker (`ns`/`tables`: every null table held here but those
+    /// at `their_ns`, which that Worker simulated; `inputs`: its suppliers, flat), or
+    /// `{theirs: null}` when calibration is off or there is too little to share. This Worker's
+    /// share is done by `powerStep`.
     #[wasm_bindgen(js_name = powerPlan)]
-    pub fn power_plan(&mut self, mine_ns: &[f64], share: bool) -> Result<JsValue, JsValue> {
+    pub fn power_plan(&mut self, their_ns: &[f64], share: bool) -> Result<JsValue, JsValue> {
         let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
-        let Some(c) = p.cal.as_ref() else {
+        let Some(c) = p.cal.as_mut() else {
             return to_js(&serde_json::json!({"theirs": null}));
         };
         let mut order: Vec<usize> = (0..p.inputs.len()).collect();
@@ -317,16 +359,18 @@ impl Session {
         }
         p.mine = order.iter().copied().step_by(2).collect();
         let theirs: Vec<&SupplierInput> = order.iter().skip(1).step_by(2).map(|&i| &p.inputs[i]).collect();
-        let ns = sizes(mine_ns);
+        let skip = sizes(their_ns);
+        let tables = c.take_tables();
         let mut flat = Vec::new();
         let mut have = Vec::new();
-        for &n in &ns {
-            if let Some(t) = c.cached_table(n) {
-                have.push(n as f64);
-                for col in t.columns() {
-                    flat.extend_from_slice(col);
-                }
+        for t in tables.iter().filter(|t| !skip.contains(&t.n)) {
+            have.push(t.n as f64);
+            for col in t.columns() {
+                flat.extend_from_slice(col);
             }
+        }
+        for t in tables {
+            c.insert_table(t);
         }
         let out = js_sys::Object::new();
         let th = js_sys::Object::new();
@@ -377,9 +421,37 @@ impl Session {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         let mut cal = p.cal;
         let rep = report::finish_screen(&r.ledger, &r.info, self.min_amount, &p.opts, p.suppliers, &p.counts, cal.as_mut());
+        if let (Some(c), true) = (cal.as_mut(), self.keep_tables) {
+            self.tables = (c.options().seed, c.options().sims, c.take_tables());
+        }
         let v = screen_summary(&rep);
         self.report = Some(rep);
         v
+    }
+
+    /// Keep null tables simulated elsewhere ahead of a screen (`likelyTables` in the helper
+    /// Worker while this one reads the file) for the next screens with this seed and sims.
+    #[wasm_bindgen(js_name = holdTables)]
+    pub fn hold_tables(&mut self, ns: &[f64], flat: &[f64], sims: u32, seed: f64) -> Result<(), JsValue> {
+        let seed = seed as u64;
+        if self.tables.0 != seed || self.tables.1 != sims {
+            self.tables = (seed, sims, Vec::new());
+        }
+        for t in tables_from_flat(ns, flat, sims as usize)? {
+            if !self.tables.2.iter().any(|k| k.n == t.n) {
+                self.tables.2.push(t);
+            }
+        }
+        Ok(())
+    }
+
+    /// Keep null tables between screens (default) or not (every screen cold; benchmark only).
+    #[wasm_bindgen(js_name = keepTables)]
+    pub fn keep_tables(&mut self, on: bool) {
+        self.keep_tables = on;
+        if !on {
+            self.tables = (0, 0, Vec::new());
+        }
     }
 
     /// Drop a planned screen (after Cancel).

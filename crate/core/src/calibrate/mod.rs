@@ -924,6 +924,27 @@ impl Calibrator {
         LedgerCalibration { correction: self.opts.correction, q, alarms: alarm_indices.len(), alarm_indices, suppliers }
     }
 
+    /// The null tables almost every screen reads whatever its suppliers: the power-curve
+    /// checkpoints from 10 to 10,000 invoices (every curve starts at 10 and most reach 95 %
+    /// detection by then), those not cached yet. Another thread or Worker can simulate them
+    /// while the ledger is still being read.
+    pub fn likely_tables(&self) -> Vec<u64> {
+        let mut ns = Vec::new();
+        let mut g = GRID_PER_DECADE;
+        while g <= COARSE_FROM_DECADE * GRID_PER_DECADE && grid_n(g) <= self.opts.max_invoices {
+            ns.push(grid_n(g));
+            g = next_checkpoint(g);
+        }
+        self.missing_tables(&ns)
+    }
+
+    /// Every cached table (e.g. to keep them for the next screen with the same seed and sims).
+    pub fn take_tables(&mut self) -> Vec<NullTable> {
+        let mut v: Vec<NullTable> = self.tables.drain().map(|(_, t)| t).collect();
+        v.sort_by_key(|t| t.n);
+        v
+    }
+
     /// The null-table sizes [`Calibrator::ledger`] needs for suppliers of sizes `ns` that are
     /// not cached yet (their own brackets and the power-curve checkpoints), ascending: what
     /// another Worker can simulate ahead and [`Calibrator::insert_table`] put in.
