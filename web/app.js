@@ -165,6 +165,7 @@
       state.intake = res.intake;
       state.report = res.screen;
       state.calibrationWorkers = res.workers; // Workers that simulated the null tables (2, or 1 without a helper)
+      state.calibrationPowerWorkers = res.powerWorkers; // ... and did the power work per supplier
       state.selected = res.screen.suppliers.length ? res.screen.suppliers[0].id : null;
       renderAccounting();
       renderSupplierTable();
@@ -754,8 +755,12 @@
     body.replaceChildren(el('p', { class: 'caution', text: CAUTION }), facts, el('label', { class: 'note-label' }, 'Reviewer\u2019s note', note), verdictBlock(d, powerCanvas), testSummary(d), charts, drillBox, amountChecks(d, drillBox));
     if (d.calibration && d.calibration.power_curve.length) {
       const cal = d.calibration, dpr = sizeCanvas(powerCanvas);
+      const last = cal.power_curve[cal.power_curve.length - 1];
+      // The simulation stops once detection reaches 95 % (or the target power, if higher): a
+      // dashed level line carries the last simulated point on to the supplier's own size.
+      const beyond = d.invoices > last.invoices && last.power >= 0.95 ? [{ label: 'not simulated further (already caught ≥ 95 %)', points: Array.from({ length: 17 }, (_, i) => [last.invoices * Math.pow(d.invoices / last.invoices, i / 16), last.power]), dashed: true }] : [];
       wasm_bindgen.drawScatter(powerCanvas, { title: 'How many invoices a verdict needs', log_x: true, scale: dpr, as_line: true, x_label: 'invoices (log scale)', y_label: 'chance of detection',
-        y_min: 0, y_max: 1.02, points: cal.power_curve.map((p) => ({ x: p.invoices, y: p.power })),
+        y_min: 0, y_max: 1.02, points: cal.power_curve.map((p) => ({ x: p.invoices, y: p.power })), curves: beyond,
         h_lines: [[state.report.calibration.power, 'target power']], v_lines: [[d.invoices, 'now']] });
       powerCanvas.dataset.drawn = 'yes';
     }

@@ -45,10 +45,15 @@ async function* slicesInTurn(blob) {
 async function openLedger(id, blob, name, options, settings) {
   cancelled = false;
   session = new wasm_bindgen.Session(options || {});
+  if (!keepTables) session.keepTables(false);
   const total = blob.size;
   session.setSizeHint(total); // the invoice store is reserved once, not grown by copies
   let done = 0;
   const t0 = performance.now();
+  // While this Worker reads the file, the helper simulates the null tables almost every screen
+  // reads (the power-curve checkpoints): kept for this ledger's screens.
+  const likely = helperWanted && keepTables && helper && helper.ready ? wasm_bindgen.likelyTables(settings || {}) : null;
+  const ahead = likely && likely.ns.length ? helperTables(helper, { theirs: likely.ns, sims: likely.sims, seed: likely.seed }) : null;
   for await (const { buf, end } of slices(blob)) {
     if (cancelled) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
     session.feed(buf);
@@ -56,21 +61,26 @@ async function openLedger(id, blob, name, options, settings) {
     post({ progress: true, id, done, total, rows: session.rowsSoFar() });
   }
   const intake = session.finish();
+  if (ahead) {
+    const t = await ahead;
+    if (t) session.holdTables(new Float64Array(likely.ns), t, likely.sims, likely.seed);
+  }
   if (!intake.ok) { post({ id, ok: true, value: { name, intake } }); return; }
   post({ progress: true, id, done, total, rows: intake.rows.read, stage: 'screening' });
   const res = await screenSplit(settings || {}, true);
   if (!res) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
   const ms = performance.now() - t0;
-  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, timing: res.timing, ms, sha256: session.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
+  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, powerWorkers: res.powerWorkers, timing: res.timing, ms, sha256: session.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
 }
 
-// ---------- a second Worker for the calibration's null tables ----------
+// ---------- a second Worker for the calibration ----------
 // A screen's null tables (one per invoice count it reads) are split in two shares of about
 // equal simulation cost: this Worker simulates one, a helper Worker (this same script, started
 // from this Worker's own blob: URL, sharing its compiled wasm module) the other, which comes
 // back as one transferred Float64Array. Each table is seeded by its own size, so the numbers
-// are those of one Worker. If the helper cannot start or fails, this Worker simulates the
-// missing tables itself: the same numbers, later.
+// are those of one Worker. The power work per supplier is then split the same way: the helper
+// gets half the suppliers and this Worker's tables. If the helper cannot start or fails, this
+// Worker does the missing work itself: the same numbers, later.
 let isHelper = false;
 let wasmModule = null;
 let helper = null; // { worker, ready: boolean, started: Promise<boolean>, job: resolver | null }
@@ -92,7 +102,7 @@ function startHelper() {
     w.onmessage = (ev) => {
       const m = ev.data;
       if ('ready' in m) { h.ready = m.ready; resolve(m.ready || fail()); return; }
-      if (h.job) { const j = h.job; h.job = null; j(m.ok ? m.tables : null); }
+      if (h.job) { const j = h.job; h.job = null; j(m.ok ? (m.tables || m.powers) : null); }
       if (!m.ok) fail();
     };
     w.onerror = (ev) => { ev.preventDefault(); resolve(fail()); };
@@ -120,10 +130,21 @@ async function helperTables(h, plan) {
   });
 }
 
-// Screen with the null tables split over this Worker and the helper. Returns
+// The helper's power results for share (from session.powerPlan), or null.
+async function helperPowers(h, share) {
+  if (!(await h.started) || helper !== h) return null;
+  return new Promise((resolve) => {
+    h.job = resolve;
+    h.worker.postMessage({ cmd: 'power', options: share.options, ns: share.ns, tables: share.tables, inputs: share.inputs }, [share.ns.buffer, share.tables.buffer, share.inputs.buffer]);
+  });
+}
+
+// Screen with the null tables split over this Worker and the helper, then the power work
+// (power against wholly fabricated amounts, power curves) split the same way. Returns
 // {screen, workers, timing} or, when `cancellable` and Cancel came, null. Without a helper
 // (or when it fails) this Worker simulates every table, one per call, Cancel between.
 let helperWanted = true;
+let keepTables = true;
 async function screenSplit(settings, cancellable) {
   const t0 = performance.now();
   const plan = session.screenPlan(settings);
@@ -152,9 +173,29 @@ async function screenSplit(settings, cancellable) {
   if (tables) session.insertTables(plan.theirs, tables);
   else if (!(await simulate(plan.theirs))) return stop();
   const t2 = performance.now();
-  const screen = session.screenFinish();
+  // Power work: half the suppliers to the helper (with the tables simulated here, which it
+  // lacks), half here, a few per call so that a Cancel gets in. Every result depends only on
+  // the options, the tables and the supplier: the same numbers as one Worker.
+  const pp = session.powerPlan(new Float64Array(plan.theirs), !!(tables && helper === h && h.ready));
+  const powers = pp.theirs ? helperPowers(h, pp.theirs) : null;
+  for (;;) {
+    const left = session.powerStep(8);
+    if (!left) break;
+    await yieldNow();
+    if (cancellable && cancelled) return stop();
+  }
+  let theirPowers = null;
+  if (powers) {
+    theirPowers = await Promise.race([powers, new Promise((r) => { onCancel = () => r(null); })]);
+    onCancel = null;
+    if (cancellable && cancelled) return stop();
+    if (theirPowers) session.insertPowers(theirPowers); // else screenFinish does that share here
+  }
   const t3 = performance.now();
-  return { screen, workers: tables ? 2 : 1, timing: { batteries: t1 - t0, tables: t2 - t1, finish: t3 - t2, mine: plan.mine.length, theirs: plan.theirs.length } };
+  const screen = session.screenFinish();
+  const t4 = performance.now();
+  return { screen, workers: tables ? 2 : 1, powerWorkers: theirPowers ? 2 : 1,
+    timing: { batteries: t1 - t0, tables: t2 - t1, power: t3 - t2, finish: t4 - t3, mine: plan.mine.length, theirs: plan.theirs.length, powerTheirs: pp.theirs ? pp.theirs.count : 0 } };
 }
 
 // A zero-delay yield to the event loop, so a Cancel message gets in between replications.
@@ -202,13 +243,20 @@ const handlers = {
     }
     return openLedger(id, file, file.name, options, settings);
   },
-  async rescreen({ id, settings }) { const r = await screenSplit(settings || {}, false); post({ id, ok: true, value: r.screen, workers: r.workers, timing: r.timing }); },
+  async rescreen({ id, settings }) { const r = await screenSplit(settings || {}, false); post({ id, ok: true, value: r.screen, workers: r.workers, powerWorkers: r.powerWorkers, timing: r.timing }); },
   // Benchmark and tests: screen without (false) or with (true, the default) the helper Worker.
   async useHelper({ id, on }) { helperWanted = !!on; if (!on) stopHelper(); else startHelper(); post({ id, ok: true, value: helperWanted }); },
+  // Benchmark: keep null tables between screens (true, the default) or time every screen cold.
+  async keepTables({ id, on }) { keepTables = !!on; if (session) session.keepTables(keepTables); post({ id, ok: true, value: keepTables }); },
   // The helper's one job: null tables for another Worker's screen (see screenSplit).
   async tables({ ns, sims, seed }) {
     const t = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);
     self.postMessage({ ok: true, tables: t }, [t.buffer]);
+  },
+  // The helper's second job: its share of the power work, with the other Worker's tables.
+  async power({ options, ns, tables, inputs }) {
+    const r = wasm_bindgen.powerShare(options, ns, tables, inputs);
+    self.postMessage({ ok: true, powers: r }, [r.buffer]);
   },
   async exportSuppliers({ id, fileName }) { post({ id, ok: true, value: session.suppliersCsv(fileName) }); },
   async exportPull({ id, items, fileName }) { post({ id, ok: true, value: session.pullCsv(items, fileName) }); },

@@ -20,12 +20,17 @@ test('page (wasm) and CLI (native) agree exactly on calibrated results', { skip:
   const { page, requests, errors } = await openPage(browser);
   await page.click('#demo');
   await page.waitForSelector('body[data-loaded="yes"]', { timeout: 180_000 });
-  const web = await page.evaluate(() => window.digitdrift.report.suppliers.map((s) => ({ name: s.name, invoices: s.invoices, verdict: s.verdict, mc: s.first_two.mc_p_value, crit: s.first_two.mad_critical, mad: s.first_two.mad, adj: s.calibration.adjusted_p_value, needed: s.invoices_needed })));
-  const nat = native.suppliers.map((s) => ({ name: s.name, invoices: s.invoices, verdict: s.verdict, mc: s.first_two.mc_p_value, crit: s.first_two.mad_critical, mad: s.first_two.mad, adj: s.calibration.adjusted_p_value, needed: s.invoices_needed }));
+  const pick = (s) => ({ name: s.name, invoices: s.invoices, verdict: s.verdict, mc: s.first_two.mc_p_value, crit: s.first_two.mad_critical, mad: s.first_two.mad, adj: s.calibration.adjusted_p_value, needed: s.invoices_needed,
+    full: s.calibration.power_full_fabrication, fullSims: s.calibration.power_full_sims, curve: s.calibration.power_curve });
+  const web = await page.evaluate(() => window.digitdrift.report.suppliers.map((s) => ({ name: s.name, invoices: s.invoices, verdict: s.verdict, mc: s.first_two.mc_p_value, crit: s.first_two.mad_critical, mad: s.first_two.mad, adj: s.calibration.adjusted_p_value, needed: s.invoices_needed,
+    full: s.calibration.power_full_fabrication, fullSims: s.calibration.power_full_sims, curve: s.calibration.power_curve })));
+  const nat = native.suppliers.map(pick);
   assert.equal(web.length, nat.length);
   assert.deepEqual(web, nat);
-  // the null tables were split over the page's Worker and its helper Worker
+  // the null tables, then the power work per supplier, were split over the page's Worker and
+  // its helper Worker
   assert.equal(await page.evaluate(() => window.digitdrift.calibrationWorkers), 2);
+  assert.equal(await page.evaluate(() => window.digitdrift.calibrationPowerWorkers), 2);
   assert.deepEqual(await page.evaluate(() => window.digitdrift.report.rows), native.rows);
   // The overview chart and the verdict column.
   await page.waitForSelector('#chart-overview[data-drawn="yes"]');

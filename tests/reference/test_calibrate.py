@@ -77,7 +77,10 @@ def test_rng_stream_derivation():
 
 # --- binomial sampler vs scipy.stats.binom ---------------------------------------------------
 
-@pytest.mark.parametrize("n,p", [(40, 0.3), (1000, 0.04), (1000, 0.3), (100000, 0.0414), (5000, 0.9)])
+# Inversion below n·min(p, 1-p) = 10, BTRS (Hormann 1993) from there: cases on both sides of
+# the switch, at its edge (np just above 10) and far into it, with p above and below one half.
+@pytest.mark.parametrize("n,p", [(40, 0.3), (30, 0.34), (1000, 0.011), (25, 0.55), (1000, 0.04), (1000, 0.3),
+                                 (100000, 0.0414), (5000, 0.9), (1000000, 0.5), (200, 0.97)])
 def test_binomial_goodness_of_fit(n, p):
     draws = 40000
     h = np.array(probe("binom", n, p, draws, 11)["hist"], dtype=float)
@@ -98,12 +101,12 @@ def test_binomial_goodness_of_fit(n, p):
     assert abs(mean - n * p) < 5 * math.sqrt(n * p * (1 - p) / draws)
 
 
-# --- multinomial means, both methods (n <= 6000 guide table, above binomial chain) ---------
+# --- multinomial means, both methods (guide table up to sample.rs GUIDE_MAX_N, above it binomial splitting) ---
 
 BENFORD2 = np.log10(1 + 1 / np.arange(10, 100))
 
 
-@pytest.mark.parametrize("n", [1000, 20000])
+@pytest.mark.parametrize("n", [1000, 20000, 300000])
 def test_multinomial_bin_totals(n):
     sims = 2000
     tot = np.array(probe("multinomial", n, sims, 5)["totals"], dtype=float)

@@ -1,9 +1,11 @@
 //! Native side of the page's calibration benchmark (`node bench/speed.mjs --page`): reads a
 //! ledger, then times the screen in the page Worker's phases — the batteries
 //! (`report::supplier_batteries`), the null tables every supplier's calibration reads
-//! (`report::calibration_tables`, simulated on 1 thread, then again on 2), and the rest
-//! (`report::finish_screen`: power curves, invoices needed, ranking, whole-file battery).
-//! Prints one JSON line of seconds and the ranked suppliers' calibrated p-values.
+//! (`report::calibration_tables`), the power work per supplier (`Calibrator::powers`: power
+//! against wholly fabricated amounts, power curves) and the rest (`report::finish_screen`:
+//! p-values, correction, ranking, whole-file battery), once with the tables and the power work
+//! on 1 thread and once on 2. Prints one JSON line of seconds and the ranked suppliers'
+//! calibrated p-values (the same from both runs, or it exits 1).
 //! Usage: screen_speed FILE
 use digitdrift_core::calibrate::{CalibrationOptions, Calibrator};
 use digitdrift_core::intake::{Intake, IntakeOptions};
@@ -24,34 +26,38 @@ fn main() {
     let t = Instant::now();
     let (suppliers, counts) = report::supplier_batteries(&r.ledger, &opts);
     let batteries = t.elapsed().as_secs_f64();
-    let mut tables = [0.0f64; 2];
-    let mut out = None;
-    for (k, threads) in [1usize, 2].into_iter().enumerate() {
+    let inputs = report::calibration_inputs(&suppliers, &counts);
+    let mut runs = Vec::new();
+    for threads in [1usize, 2] {
         let mut cal = Calibrator::new(CalibrationOptions::default());
+        cal.set_threads(threads);
         let need = report::calibration_tables(&cal, &suppliers, &counts);
         let t = Instant::now();
         cal.prepare(&need, threads);
-        tables[k] = t.elapsed().as_secs_f64();
-        if k == 0 {
-            cal.set_threads(1);
-            let t = Instant::now();
-            let rep = report::finish_screen(&r.ledger, &r.info, min, &opts, suppliers.clone(), &counts, Some(&mut cal));
-            out = Some((t.elapsed().as_secs_f64(), need.len(), rep));
-        }
+        let tables = t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        cal.powers(&inputs, threads);
+        let powers = t.elapsed().as_secs_f64();
+        let t = Instant::now();
+        let rep = report::finish_screen(&r.ledger, &r.info, min, &opts, suppliers.clone(), &counts, Some(&mut cal));
+        let finish = t.elapsed().as_secs_f64();
+        // per ranked supplier: calibrated p-value, corrected p-value, invoices needed (-1: none)
+        let mc: Vec<[f64; 3]> = rep
+            .suppliers
+            .iter()
+            .filter_map(|s| s.calibration.as_ref())
+            .map(|c| [c.mc_p_value, c.adjusted_p_value.unwrap_or(-1.0), c.invoices_needed.map_or(-1.0, |n| n as f64)])
+            .collect();
+        runs.push((tables, powers, finish, need.len(), rep.suppliers.len(), mc));
     }
-    let (finish, ntables, rep) = out.expect("screen");
-    // per ranked supplier: calibrated p-value, corrected p-value, invoices needed (-1: none)
-    let mc: Vec<[f64; 3]> = rep
-        .suppliers
-        .iter()
-        .filter_map(|s| s.calibration.as_ref())
-        .map(|c| [c.mc_p_value, c.adjusted_p_value.unwrap_or(-1.0), c.invoices_needed.map_or(-1.0, |n| n as f64)])
-        .collect();
+    if runs[0].5 != runs[1].5 {
+        eprintln!("1 and 2 threads gave different numbers");
+        std::process::exit(1);
+    }
+    let (t1, p1, f1, ntables, nsup, _) = &runs[0];
+    let (t2, p2, f2, _, _, mc) = &runs[1];
     println!(
-        "{{\"suppliers\":{},\"tables\":{ntables},\"batteries_s\":{batteries},\"tables_1_s\":{},\"tables_2_s\":{},\"finish_s\":{finish},\"mc\":{}}}",
-        rep.suppliers.len(),
-        tables[0],
-        tables[1],
-        serde_json::to_string(&mc).expect("json")
+        "{{\"suppliers\":{nsup},\"tables\":{ntables},\"batteries_s\":{batteries},\"tables_1_s\":{t1},\"tables_2_s\":{t2},\"power_1_s\":{p1},\"power_2_s\":{p2},\"finish_1_s\":{f1},\"finish_2_s\":{f2},\"mc\":{}}}",
+        serde_json::to_string(mc).expect("json")
     );
 }

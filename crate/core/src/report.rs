@@ -182,16 +182,21 @@ fn limit_curve_sizes(suppliers: &[SupplierResult]) -> Vec<u64> {
     ns
 }
 
+/// Each supplier's input to the calibration (first-two counts and amount range), in order.
+pub fn calibration_inputs(suppliers: &[SupplierResult], counts: &[Vec<u64>]) -> Vec<SupplierInput> {
+    suppliers
+        .iter()
+        .zip(counts)
+        .map(|(s, c)| SupplierInput { first_two_counts: c.clone(), amount_min: s.amount_min, amount_max: s.amount_max })
+        .collect()
+}
+
 /// As [`calibrate_list`], with the calibrator `cal` (its options; any null tables already in
 /// it, e.g. simulated by another Worker, are used as they are: each is seeded by its own n, so
 /// the numbers are the same as from a fresh one).
 pub fn calibrate_list_with(cal: &mut Calibrator, suppliers: &mut [SupplierResult], counts: &[Vec<u64>]) -> CalibrationSummary {
     let copts = &cal.options().clone();
-    let inputs: Vec<SupplierInput> = suppliers
-        .iter()
-        .zip(counts)
-        .map(|(s, c)| SupplierInput { first_two_counts: c.clone(), amount_min: s.amount_min, amount_max: s.amount_max })
-        .collect();
+    let inputs = calibration_inputs(suppliers, counts);
     let lc = cal.ledger(&inputs);
     for (s, c) in suppliers.iter_mut().zip(lc.suppliers) {
         if let Some(ft) = s.tests.first_two.as_mut() {

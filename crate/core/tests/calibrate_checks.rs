@@ -95,10 +95,11 @@ fn mad_95th_percentiles_match_numpy_run() {
 #[test]
 fn interpolation_matches_direct_simulation_off_grid() {
     // Off-grid n: the grid-interpolated critical MAD and p-values must agree with a direct
-    // simulation at that n (independent stream) within Monte Carlo error.
+    // simulation at that n (independent stream) within Monte Carlo error. Above 10,000
+    // invoices the grid has 2 points a decade: 17,000 and 200,000 sit mid-gap there.
     let b = Categorical::new(&benford::first_two());
     let mut cal = Calibrator::new(opts(10_000));
-    for n in [137u64, 1234, 7000, 33_333] {
+    for n in [137u64, 1234, 7000, 17_000, 33_333, 200_000] {
         let direct = NullTable::simulate(&b, n, 10_000, 991);
         for alpha in [0.1, 0.05, 0.01] {
             let ci = cal.critical(Statistic::Mad, n, alpha);
@@ -260,4 +261,99 @@ fn fdr_keeps_false_alarms_down_across_200_honest_suppliers() {
     assert!(l.alarms <= 1, "{} alarms", l.alarms);
     let raw = l.suppliers.iter().filter(|s| s.mc_p_value <= 0.05).count();
     assert!(raw >= 3, "uncorrected alarms {raw}"); // ~10 expected (Poisson-ish, common practice)
+}
+
+#[test]
+fn mixture_power_curve_matches_direct_sampling_from_the_mixture() {
+    // The curve built from shared honest paths (each invoice fabricated with probability s, the
+    // honest part common to all suppliers) must estimate the same power as drawing every sample
+    // straight from the mixture (1 - s)·Benford + s·Uniform[a, b] at each checkpoint: two
+    // independent estimates of one probability, within 4 binomial standard errors of their
+    // difference.
+    let sims = 2000u32;
+    let o = CalibrationOptions { sims: 4000, power_sims: sims, power: 0.999, ..Default::default() };
+    for (a, b) in [(12.0, 4800.0), (250.0, 260.0)] {
+        let mut cal = Calibrator::new(o.clone());
+        let u = digitdrift_core::calibrate::uniform_first_two(a, b);
+        let curve = cal.power_curve_mixture(&u, 0.999);
+        assert!(curve.len() >= 4, "{curve:?}");
+        let mix = even_spread_mixture(a, b, 0.3);
+        for pt in curve.iter().take(12) {
+            let direct = cal.power_at(&mix, pt.invoices, 7);
+            let pbar = 0.5 * (direct + pt.power);
+            let se = (2.0 * pbar * (1.0 - pbar) / sims as f64).sqrt().max(1.0 / sims as f64);
+            assert!((direct - pt.power).abs() <= 4.0 * se, "[{a}, {b}] n={}: curve {} vs direct {direct}", pt.invoices, pt.power);
+        }
+    }
+}
+
+#[test]
+fn sequential_bounds_are_exact_binomial_tails() {
+    // Each look's bounds must cut exactly where the binomial tail at the target power crosses
+    // SEQ_DELTA, checked with statrs' binomial distribution (an outside implementation).
+    use digitdrift_core::calibrate::power::{sequential_bounds, SEQ_DELTA};
+    use statrs::distribution::{Binomial, DiscreteCDF};
+    for target in [0.5, 0.8, 0.9, 0.99] {
+        for (k, lo, hi) in sequential_bounds(target, 400) {
+            let d = Binomial::new(target, k as u64).unwrap();
+            let le = |h: i64| if h < 0 { 0.0 } else { d.cdf(h as u64) };
+            let ge = |h: i64| if h <= 0 { 1.0 } else if h as u64 > k as u64 { 0.0 } else { d.sf(h as u64 - 1) };
+            let tol = 1e-9;
+            assert!(le(lo) <= SEQ_DELTA + tol && le(lo + 1) > SEQ_DELTA - tol, "target {target} k {k} lo {lo}");
+            assert!(ge(hi) <= SEQ_DELTA + tol && ge(hi - 1) > SEQ_DELTA - tol, "target {target} k {k} hi {hi}");
+        }
+    }
+}
+
+#[test]
+fn sequential_power_stops_early_only_when_the_answer_is_clear() {
+    let mut cal = Calibrator::new(CalibrationOptions { sims: 4000, power_sims: 400, ..Default::default() });
+    // wholly fabricated amounts at n = 500: detected in every sample, decided at the second look
+    let full = even_spread_mixture(10.0, 5000.0, 1.0);
+    let (p, k) = cal.power_sequential(&full, 500, 1, 0.8);
+    assert!(p == 1.0 && k == 40, "{p} {k}");
+    // honest amounts: power is the test's level, far below 0.8, decided at the first look
+    let (p, k) = cal.power_sequential(&benford::first_two(), 500, 1, 0.8);
+    assert!(p < 0.2 && k == 20, "{p} {k}");
+    // power near the target (30 % even spread at n = 1,000 and 1,150 is close to 0.8): the same
+    // stream as power_at's 400 samples, so a sequential stop must take the side the full run
+    // takes, and it cannot stop at the first looks
+    let mix = even_spread_mixture(12.0, 4800.0, 0.3);
+    for n in [1000u64, 1150] {
+        let full_run = cal.power_at(&mix, n, 1);
+        assert!((full_run - 0.8).abs() < 0.12, "n={n}: {full_run} is not near the target");
+        let (p, k) = cal.power_sequential(&mix, n, 1, 0.8);
+        assert!(k > 40, "n={n}: a power near the target needs more samples: {k}");
+        assert!(k == 400 || (p >= 0.8) == (full_run >= 0.8), "n={n}: {p} after {k} vs {full_run}");
+        if k == 400 {
+            assert_eq!(p, full_run);
+        }
+    }
+}
+
+#[test]
+fn power_results_round_trip_and_split_over_threads() {
+    let p = benford::first_two();
+    let cat = Categorical::new(&p);
+    let inputs = honest_inputs(&cat, 21, &[15, 60, 300, 900, 2500, 7000, 30, 45]);
+    let o = CalibrationOptions { sims: 1000, power_sims: 80, ..Default::default() };
+    let mut one = Calibrator::new(o.clone());
+    one.set_threads(1);
+    let a = one.powers(&inputs, 1);
+    let mut two = Calibrator::new(o.clone());
+    let b = two.powers(&inputs, 2);
+    assert_eq!(a, b);
+    // flat form (what one Worker sends another) reads back to the same results
+    let mut flat = Vec::new();
+    a.iter().for_each(|r| r.push_flat(&mut flat));
+    let mut at = 0;
+    let back: Vec<_> = (0..a.len()).map(|_| digitdrift_core::calibrate::power::PowerResult::read_flat(&flat, &mut at).unwrap()).collect();
+    assert_eq!(at, flat.len());
+    assert_eq!(back, a);
+    // results inserted into a fresh calibrator are used as they are
+    let mut three = Calibrator::new(o);
+    for (inp, r) in inputs.iter().zip(&back) {
+        three.insert_power(inp, r.clone());
+    }
+    assert_eq!(three.ledger(&inputs), one.ledger(&inputs));
 }

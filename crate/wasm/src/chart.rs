@@ -232,7 +232,12 @@ pub fn draw_scatter(canvas: HtmlCanvasElement, spec: JsValue) -> Result<JsValue,
     let root = backend(canvas)?;
     let px = |v: f64| (v * s.scale).round() as i32;
     let tx = |x: f64| if s.log_x { x.max(1e-9).log10() } else { x };
-    let xs = s.points.iter().map(|p| p.x).chain(s.curves.iter().flat_map(|c| c.points.iter().map(|p| p.0)));
+    let xs = s
+        .points
+        .iter()
+        .map(|p| p.x)
+        .chain(s.curves.iter().flat_map(|c| c.points.iter().map(|p| p.0)))
+        .chain(s.v_lines.iter().map(|v| v.0).filter(|x| x.is_finite()));
     let ys = s
         .points
         .iter()

@@ -6,8 +6,9 @@ mod bench;
 mod chart;
 
 use digitdrift_core::intake::{DateOrder, DecimalConvention, Intake, IntakeOptions, IntakeResult};
-use digitdrift_core::calibrate::{Calibrator, Categorical, NullTable};
 use digitdrift_core::battery::{Indexed, Members};
+use digitdrift_core::calibrate::power::PowerResult;
+use digitdrift_core::calibrate::{CalibrationOptions, Calibrator, Categorical, NullTable, SupplierInput};
 use digitdrift_core::{report, Amount, Invoice};
 use serde::Deserialize;
 use wasm_bindgen::prelude::*;
@@ -81,6 +82,12 @@ pub struct Session {
     trial_last: Option<digitdrift_core::trial::TrialReport>,
     /// A screen between `screenPlan` and `screenFinish` (batteries done, calibration to come).
     pending: Option<PendingScreen>,
+    /// Null tables kept from earlier screens and from `holdTables` (seed, sims, tables): each
+    /// depends only on (seed, sims, n), so a later screen with the same seed and sims reads them
+    /// as they are.
+    tables: (u64, u32, Vec<NullTable>),
+    /// Keep tables between screens (the benchmark turns it off to time cold screens).
+    keep_tables: bool,
 }
 
 /// The batteries of a screen and its calibrator, while null tables are simulated ahead (part
@@ -90,6 +97,10 @@ struct PendingScreen {
     suppliers: Vec<report::SupplierResult>,
     counts: Vec<Vec<u64>>,
     cal: Option<Calibrator>,
+    /// The power work: every supplier's input, and the indices left for this Worker
+    /// (`powerStep`), the costliest first.
+    inputs: Vec<SupplierInput>,
+    mine: Vec<usize>,
 }
 
 fn sizes(ns: &[f64]) -> Vec<u64> {
@@ -111,17 +122,124 @@ fn screen_summary(rep: &report::ScreenReport) -> Result<JsValue, JsValue> {
 /// Null tables at `ns` for `sims` simulations and `seed` (the second Worker's share of a
 /// screen's `screenPlan`): per size its four sorted columns (MAD, chi-square, KS, max |Z|) of
 /// `sims` values, concatenated in the order of `ns`. Each table comes from its own stream
-/// (seed, n), so they are the tables the first Worker would have simulated.
+/// (seed, n), so they are the tables the first Worker would have simulated. The helper Worker
+/// keeps them for its share of the power work (`powerShare`).
 #[wasm_bindgen(js_name = nullTables)]
 pub fn null_tables(ns: &[f64], sims: u32, seed: f64) -> Vec<f64> {
     let cat = Categorical::new(&digitdrift_core::benford::first_two());
     let mut out = Vec::with_capacity(ns.len() * 4 * sims as usize);
-    for t in NullTable::simulate_many(&cat, &sizes(ns), sims, seed as u64, 1) {
+    let tables = NullTable::simulate_many(&cat, &sizes(ns), sims, seed as u64, 1);
+    for t in &tables {
         for c in t.columns() {
             out.extend_from_slice(c);
         }
     }
+    HELPER_TABLES.with(|h| {
+        let mut h = h.borrow_mut();
+        match h.as_mut() {
+            Some((s, sd, ts)) if *s == sims && *sd == seed as u64 => {
+                for t in tables {
+                    if !ts.iter().any(|k| k.n == t.n) {
+                        ts.push(t);
+                    }
+                }
+            }
+            _ => *h = Some((sims, seed as u64, tables)),
+        }
+    });
     out
+}
+
+/// The null tables almost every screen with these settings reads, whatever the ledger
+/// (`Calibrator::likely_tables`): `{ns, sims, seed}`, for the helper Worker to simulate while
+/// the file is read (empty when calibration is off).
+#[wasm_bindgen(js_name = likelyTables)]
+pub fn likely_tables(settings: JsValue) -> Result<JsValue, JsValue> {
+    let opts = screen_options(settings)?;
+    match opts.calibration {
+        Some(c) => {
+            let cal = Calibrator::new(c);
+            to_js(&serde_json::json!({"ns": cal.likely_tables(), "sims": cal.options().sims, "seed": cal.options().seed}))
+        }
+        None => to_js(&serde_json::json!({"ns": [], "sims": 0, "seed": 0})),
+    }
+}
+
+thread_local! {
+    /// The helper Worker's last `nullTables` (sims, seed, tables), for `powerShare`.
+    static HELPER_TABLES: std::cell::RefCell<Option<(u32, u64, Vec<NullTable>)>> = const { std::cell::RefCell::new(None) };
+}
+
+/// The tables at `ns` from their flat form (four columns of `sims` values per size).
+fn tables_from_flat(ns: &[f64], flat: &[f64], sims: usize) -> Result<Vec<NullTable>, JsValue> {
+    if flat.len() != ns.len() * 4 * sims {
+        return Err(err("null tables of the wrong length"));
+    }
+    Ok(sizes(ns)
+        .iter()
+        .enumerate()
+        .map(|(i, &n)| {
+            let col = |j: usize| flat[(4 * i + j) * sims..(4 * i + j + 1) * sims].to_vec();
+            NullTable::from_columns(n, [col(0), col(1), col(2), col(3)])
+        })
+        .collect())
+}
+
+/// Supplier inputs from their flat form: per supplier amount_min, amount_max (in 1/10,000 of
+/// a unit) and the 90 first-two counts.
+fn inputs_from_flat(flat: &[f64]) -> Result<Vec<SupplierInput>, JsValue> {
+    if flat.len() % 92 != 0 {
+        return Err(err("supplier inputs of the wrong length"));
+    }
+    Ok(flat
+        .chunks_exact(92)
+        .map(|c| SupplierInput {
+            amount_min: Amount(c[0] as i64),
+            amount_max: Amount(c[1] as i64),
+            first_two_counts: c[2..].iter().map(|&x| x as u64).collect(),
+        })
+        .collect())
+}
+
+fn inputs_to_flat(inputs: &[&SupplierInput]) -> Vec<f64> {
+    let mut out = Vec::with_capacity(inputs.len() * 92);
+    for s in inputs {
+        out.push(s.amount_min.0 as f64);
+        out.push(s.amount_max.0 as f64);
+        out.extend(s.first_two_counts.iter().map(|&x| x as f64));
+    }
+    out
+}
+
+/// The helper Worker's share of a screen's power work (`Session.powerPlan`): with the
+/// calibration options, the other Worker's null tables (`ns`, `flat`) and its own from
+/// `nullTables`, the power results of the suppliers `inputs` (flat, as `PowerResult::push_flat`).
+/// Every result depends only on the options, the tables and the supplier, so they are what the
+/// first Worker would have computed.
+#[wasm_bindgen(js_name = powerShare)]
+pub fn power_share(options: JsValue, ns: &[f64], flat: &[f64], inputs: &[f64]) -> Result<Vec<f64>, JsValue> {
+    let o: CalibrationOptions = serde_wasm_bindgen::from_value(options).map_err(err)?;
+    let mut cal = Calibrator::new(o);
+    let sims = cal.options().sims;
+    for t in tables_from_flat(ns, flat, sims as usize)? {
+        cal.insert_table(t);
+    }
+    let seed = cal.options().seed;
+    HELPER_TABLES.with(|h| {
+        if let Some((s, sd, ts)) = h.borrow().as_ref() {
+            if *s == sims && *sd == seed {
+                for t in ts {
+                    cal.insert_table(t.clone());
+                }
+            }
+        }
+    });
+    let inputs = inputs_from_flat(inputs)?;
+    let mut out = Vec::new();
+    for r in cal.powers(&inputs, 1) {
+        r.push_flat(&mut out);
+    }
+    Ok(out)
 }
 
 #[wasm_bindgen]
@@ -129,7 +247,7 @@ impl Session {
     #[wasm_bindgen(constructor)]
     pub fn new(options: JsValue) -> Result<Session, JsValue> {
         let o = intake_options(options)?;
-        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None, trial_last: None, pending: None })
+        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None, trial_last: None, pending: None, tables: (0, 0, Vec::new()), keep_tables: true })
     }
 
     /// The file's size in bytes (`File.size`), before the first `feed`: the invoice store is
@@ -186,7 +304,15 @@ impl Session {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         let opts = screen_options(settings)?;
         let (suppliers, counts) = report::supplier_batteries(&r.ledger, &opts);
-        let cal = opts.calibration.as_ref().map(|c| Calibrator::new(c.clone()));
+        let mut cal = opts.calibration.as_ref().map(|c| Calibrator::new(c.clone()));
+        if let Some(c) = cal.as_mut() {
+            let (seed, sims) = (c.options().seed, c.options().sims);
+            if self.keep_tables && self.tables.0 == seed && self.tables.1 == sims {
+                for t in &self.tables.2 {
+                    c.insert_table(t.clone());
+                }
+            }
+        }
         let (parts, sims, seed) = match &cal {
             Some(c) => {
                 let need = report::calibration_tables(c, &suppliers, &counts);
@@ -194,7 +320,8 @@ impl Session {
             }
             None => (vec![Vec::new(), Vec::new()], 0, 0),
         };
-        self.pending = Some(PendingScreen { opts, suppliers, counts, cal });
+        let inputs = report::calibration_inputs(&suppliers, &counts);
+        self.pending = Some(PendingScreen { opts, suppliers, counts, cal, inputs, mine: Vec::new() });
         to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "sims": sims, "seed": seed}))
     }
 
@@ -216,12 +343,82 @@ impl Session {
         let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
         let Some(c) = p.cal.as_mut() else { return Ok(()) };
         let sims = c.options().sims as usize;
-        if flat.len() != ns.len() * 4 * sims {
-            return Err(err("null tables of the wrong length"));
+        for t in tables_from_flat(ns, flat, sims)? {
+            c.insert_table(t);
         }
-        for (i, &n) in sizes(ns).iter().enumerate() {
-            let col = |j: usize| flat[(4 * i + j) * sims..(4 * i + j + 1) * sims].to_vec();
-            c.insert_table(NullTable::from_columns(n, [col(0), col(1), col(2), col(3)]));
+        Ok(())
+    }
+
+    /// After the null tables: split the pending screen's power work in two (suppliers by size,
+    /// the costliest first, dealt in turn). Returns `{theirs: {options, ns, tables, inputs}}`
+    /// for `powerShare` in the other Worker (`ns`/`tables`: every null table held here but those
+    /// at `their_ns`, which that Worker simulated; `inputs`: its suppliers, flat), or
+    /// `{theirs: null}` when calibration is off or there is too little to share. This Worker's
+    /// share is done by `powerStep`.
+    #[wasm_bindgen(js_name = powerPlan)]
+    pub fn power_plan(&mut self, their_ns: &[f64], share: bool) -> Result<JsValue, JsValue> {
+        let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
+        let Some(c) = p.cal.as_mut() else {
+            return to_js(&serde_json::json!({"theirs": null}));
+        };
+        let mut order: Vec<usize> = (0..p.inputs.len()).collect();
+        order.sort_by_key(|&i| std::cmp::Reverse(p.inputs[i].first_two_counts.iter().sum::<u64>()));
+        if !share || order.len() < 4 {
+            p.mine = order;
+            return to_js(&serde_json::json!({"theirs": null}));
+        }
+        p.mine = order.iter().copied().step_by(2).collect();
+        let theirs: Vec<&SupplierInput> = order.iter().skip(1).step_by(2).map(|&i| &p.inputs[i]).collect();
+        let skip = sizes(their_ns);
+        let tables = c.take_tables();
+        let mut flat = Vec::new();
+        let mut have = Vec::new();
+        for t in tables.iter().filter(|t| !skip.contains(&t.n)) {
+            have.push(t.n as f64);
+            for col in t.columns() {
+                flat.extend_from_slice(col);
+            }
+        }
+        for t in tables {
+            c.insert_table(t);
+        }
+        let out = js_sys::Object::new();
+        let th = js_sys::Object::new();
+        js_sys::Reflect::set(&th, &"options".into(), &to_js(c.options())?)?;
+        js_sys::Reflect::set(&th, &"ns".into(), &js_sys::Float64Array::from(&have[..]))?;
+        js_sys::Reflect::set(&th, &"tables".into(), &js_sys::Float64Array::from(&flat[..]))?;
+        js_sys::Reflect::set(&th, &"inputs".into(), &js_sys::Float64Array::from(&inputs_to_flat(&theirs)[..]))?;
+        js_sys::Reflect::set(&th, &"count".into(), &JsValue::from(theirs.len() as u32))?;
+        js_sys::Reflect::set(&out, &"theirs".into(), &th)?;
+        Ok(out.into())
+    }
+
+    /// The next `count` suppliers of this Worker's power share; returns how many are left.
+    #[wasm_bindgen(js_name = powerStep)]
+    pub fn power_step(&mut self, count: u32) -> Result<u32, JsValue> {
+        let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
+        let Some(c) = p.cal.as_mut() else { return Ok(0) };
+        let k = (count as usize).min(p.mine.len());
+        for i in p.mine.drain(..k) {
+            c.power_of(&p.inputs[i]);
+        }
+        Ok(p.mine.len() as u32)
+    }
+
+    /// Put the other Worker's power results (`powerShare` of `powerPlan`'s `theirs`) in.
+    #[wasm_bindgen(js_name = insertPowers)]
+    pub fn insert_powers(&mut self, flat: &[f64]) -> Result<(), JsValue> {
+        let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
+        let Some(c) = p.cal.as_mut() else { return Ok(()) };
+        let mut order: Vec<usize> = (0..p.inputs.len()).collect();
+        order.sort_by_key(|&i| std::cmp::Reverse(p.inputs[i].first_two_counts.iter().sum::<u64>()));
+        let mut at = 0;
+        for &i in order.iter().skip(1).step_by(2) {
+            let r = PowerResult::read_flat(flat, &mut at).ok_or_else(|| err("power results too short"))?;
+            c.insert_power(&p.inputs[i], r);
+        }
+        if at != flat.len() {
+            return Err(err("power results of the wrong length"));
         }
         Ok(())
     }
@@ -234,9 +431,37 @@ impl Session {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         let mut cal = p.cal;
         let rep = report::finish_screen(&r.ledger, &r.info, self.min_amount, &p.opts, p.suppliers, &p.counts, cal.as_mut());
+        if let (Some(c), true) = (cal.as_mut(), self.keep_tables) {
+            self.tables = (c.options().seed, c.options().sims, c.take_tables());
+        }
         let v = screen_summary(&rep);
         self.report = Some(rep);
         v
+    }
+
+    /// Keep null tables simulated elsewhere ahead of a screen (`likelyTables` in the helper
+    /// Worker while this one reads the file) for the next screens with this seed and sims.
+    #[wasm_bindgen(js_name = holdTables)]
+    pub fn hold_tables(&mut self, ns: &[f64], flat: &[f64], sims: u32, seed: f64) -> Result<(), JsValue> {
+        let seed = seed as u64;
+        if self.tables.0 != seed || self.tables.1 != sims {
+            self.tables = (seed, sims, Vec::new());
+        }
+        for t in tables_from_flat(ns, flat, sims as usize)? {
+            if !self.tables.2.iter().any(|k| k.n == t.n) {
+                self.tables.2.push(t);
+            }
+        }
+        Ok(())
+    }
+
+    /// Keep null tables between screens (default) or not (every screen cold; benchmark only).
+    #[wasm_bindgen(js_name = keepTables)]
+    pub fn keep_tables(&mut self, on: bool) {
+        self.keep_tables = on;
+        if !on {
+            self.tables = (0, 0, Vec::new());
+        }
     }
 
     /// Drop a planned screen (after Cancel).

@@ -5,7 +5,8 @@
 //!
 //! - **Null distributions** of MAD, chi-square, KS and max |Z| over honest (Benford) samples of
 //!   size n, by exact multinomial sampling ([`sample`]) with a seeded generator ([`crate::rng`]).
-//!   They are simulated once per n on a log-spaced grid (8 points per decade) and cached; for n
+//!   They are simulated once per n on a log-spaced grid (8 points per decade up to 10,000
+//!   invoices, 2 a decade beyond, where the scaled distributions hardly move) and cached; for n
 //!   between grid points the two neighbouring tables are used with the statistic rescaled by
 //!   sqrt(n) (MAD and KS shrink like 1/sqrt(n); chi-square and max |Z| are scale-free) and the
 //!   results interpolated linearly in log n. Below [`EXACT_BELOW`] invoices every n gets its own
@@ -16,17 +17,21 @@
 //! - **Verdict** uses the MAD, the statistic practitioners read, calibrated to n.
 //!   `deviates`: the (corrected, when a list is calibrated) p-value is at most 1 - confidence;
 //!   otherwise `too_few` when even a supplier whose amounts are 100 % fabricated, spread evenly
-//!   over its own amount range, would be detected with less than the chosen power at this n;
-//!   otherwise `consistent`. A deviation is a reason to look, not proof of anything.
+//!   over its own amount range, would be detected with less than the chosen power at this n
+//!   (decided sequentially, [`power`]); otherwise `consistent`. A deviation is a reason to look,
+//!   not proof of anything.
 //! - **Invoices needed**: the smallest n at which a deviation model (default: a share s of
 //!   invoices fabricated with amounts uniform over the supplier's own range) is detected with the
-//!   chosen power, from a simulated power curve.
+//!   chosen power, from a simulated power curve ([`power`]: the honest part of the paths is
+//!   shared by all suppliers).
 //!
 //! Determinism: each table is simulated from a stream derived from (seed, purpose, n), and each
 //! power path from (seed, purpose, path index), so results never depend on the order in which
-//! suppliers are calibrated, and native and wasm builds give identical numbers.
+//! suppliers are calibrated, nor on how tables and suppliers are split over threads or Workers,
+//! and native and wasm builds give identical numbers.
 
 pub mod fdr;
+pub mod power;
 pub mod sample;
 
 pub use fdr::{adjust, Adjusted, Correction};
@@ -40,11 +45,18 @@ use std::collections::HashMap;
 
 /// Number of first-two-digit bins (10..=99).
 pub const BINS: usize = 90;
-/// Grid points per decade of n for the cached null tables.
+/// Grid points per decade of n for the cached null tables, up to 10^COARSE_FROM_DECADE.
 pub const GRID_PER_DECADE: u32 = 8;
+/// From 10^COARSE_FROM_DECADE invoices on, the grid has COARSE_PER_DECADE points a decade: there
+/// the sqrt(n)-scaled null distributions hardly change with n (the scaled 95th percentile of
+/// MAD is 0.0904-0.091 from n = 1,000 to 10,000 in the numpy run quoted in calibrate_checks),
+/// and each table costs the most to simulate.
+pub const COARSE_FROM_DECADE: u32 = 4;
+pub const COARSE_PER_DECADE: u32 = 2;
 /// Every n below this gets its own null table instead of grid interpolation.
 pub const EXACT_BELOW: u64 = 100;
-/// Power-curve checkpoints per decade (a subset of the null grid).
+/// Power-curve checkpoints per decade up to 10^COARSE_FROM_DECADE (every other grid point);
+/// beyond, every (coarse) grid point.
 pub const POWER_PER_DECADE: u32 = 4;
 
 const TAG_NULL: u64 = 0x6e75_6c6c; // "null"
@@ -115,19 +127,58 @@ pub struct CountStats {
     pub max_z: f64,
 }
 
-/// Per-n constants for the count-based statistics.
+/// Per-n constants for the count-based statistics, padded with zeros to a multiple of
+/// [`LANES`] bins (padded bins add exactly 0 to every sum and maximum).
 #[derive(Clone, Debug)]
 pub struct Moments {
     n: u64,
+    /// Number of bins (before padding).
+    k: usize,
     e: Vec<f64>,
     inv_e: Vec<f64>,
     cum_e: Vec<f64>,
     inv_sd: Vec<f64>,
 }
 
+/// Running sums and maxima kept per lane, so that the loops over bins vectorise; the lanes are
+/// combined as (l0 + l1) + (l2 + l3), the same order on every platform.
+pub const LANES: usize = 4;
+
+/// A bin count: u64 for observed counts, u32 for simulated ones (half the memory traffic).
+pub trait Count: Copy + Default + Send + Sync + 'static {
+    fn to_u64(self) -> u64;
+    fn add_u64(&mut self, x: u64);
+}
+impl Count for u64 {
+    #[inline(always)]
+    fn to_u64(self) -> u64 {
+        self
+    }
+    #[inline(always)]
+    fn add_u64(&mut self, x: u64) {
+        *self += x;
+    }
+}
+impl Count for u32 {
+    #[inline(always)]
+    fn to_u64(self) -> u64 {
+        self as u64
+    }
+    #[inline(always)]
+    fn add_u64(&mut self, x: u64) {
+        *self += x as u32;
+    }
+}
+
 impl Moments {
     pub fn new(n: u64, p: &[f64]) -> Moments {
         let nf = n as f64;
+        let k = p.len();
+        let k4 = k.div_ceil(LANES) * LANES;
+        let pad = |mut v: Vec<f64>| {
+            v.resize(k4, 0.0);
+            v
+        };
         let e: Vec<f64> = p.iter().map(|&x| nf * x).collect();
         let inv_e = e.iter().map(|&x| if x > 0.0 { 1.0 / x } else { 0.0 }).collect();
         let mut acc = 0.0;
@@ -145,62 +196,90 @@ impl Moments {
                 if v > 0.0 { 1.0 / libm::sqrt(v) } else { 0.0 }
             })
             .collect();
-        Moments { n, e, inv_e, cum_e, inv_sd }
+        Moments { n, k, e: pad(e), inv_e: pad(inv_e), cum_e: pad(cum_e), inv_sd: pad(inv_sd) }
     }
 
     pub fn n(&self) -> u64 {
         self.n
     }
 
+    /// Sum over bins of |c_i - e_i|, c_i = count(i), with the lane order of [`LANES`].
+    #[inline(always)]
+    fn sum_abs_dev(&self, count: impl Fn(usize) -> u64) -> f64 {
+        let mut lane = [0.0f64; LANES];
+        for (j, ee) in self.e.chunks_exact(LANES).enumerate() {
+            for l in 0..LANES {
+                let i = j * LANES + l;
+                let c = if i < self.k { count(i) as i64 as f64 } else { 0.0 };
+                lane[l] += libm::fabs(c - ee[l]);
+            }
+        }
+        (lane[0] + lane[1]) + (lane[2] + lane[3])
+    }
+
     /// MAD = mean_i |c_i / n - p_i| (Nigrini 2012, as in [`crate::stats::mad`]).
     #[inline]
-    pub fn mad(&self, c: &[u64]) -> f64 {
+    pub fn mad<C: Count>(&self, c: &[C]) -> f64 {
         if self.n == 0 {
             return 0.0;
         }
-        let mut s = 0.0;
-        let c = &c[..self.e.len()];
-        for (&ci, &e) in c.iter().zip(&self.e) {
-            s += libm::fabs(ci as i64 as f64 - e);
+        let c = &c[..self.k];
+        self.sum_abs_dev(|i| c[i].to_u64()) / (self.n as f64 * self.k as f64)
+    }
+
+    /// MAD of the counts h + f (both of length >= the bins).
+    #[inline]
+    pub fn mad_sum<C: Count>(&self, h: &[u32], f: &[C]) -> f64 {
+        if self.n == 0 {
+            return 0.0;
         }
-        s / (self.n as f64 * self.e.len() as f64)
+        let (h, f) = (&h[..self.k], &f[..self.k]);
+        self.sum_abs_dev(|i| h[i] as u64 + f[i].to_u64()) / (self.n as f64 * self.k as f64)
     }
 
     /// All four statistics.
-    pub fn stats(&self, c: &[u64]) -> CountStats {
+    pub fn stats<C: Count>(&self, c: &[C]) -> CountStats {
         if self.n == 0 {
             return CountStats { mad: 0.0, chi_square: 0.0, ks: 0.0, max_z: 0.0 };
         }
         let nf = self.n as f64;
-        let (mut sad, mut chi, mut ks, mut mz) = (0.0f64, 0.0f64, 0.0f64, 0.0f64);
-        // Counts are converted through i64 (one instruction on x86_64; the same value below
-        // 2^63) and cumulated as integers (exact, so the same as a float running sum below
-        // 2^53). inv_sd[i] is 0 where p_i is 0 or 1, so num * inv_sd[i] is the 0 of z_stat there.
-        // No statistic is NaN, so plain comparisons give the same maxima as f64::max.
-        let k = self.e.len();
-        let (e, inv_e, cum_e, inv_sd) = (&self.e[..k], &self.inv_e[..k], &self.cum_e[..k], &self.inv_sd[..k]);
-        let c = &c[..k];
-        let mut cum = 0i64;
-        for i in 0..k {
-            let ci = c[i] as i64;
-            let d = ci as f64 - e[i];
-            let ad = libm::fabs(d);
-            sad += ad;
-            chi += d * d * inv_e[i];
-            cum += ci;
-            let dk = libm::fabs(cum as f64 - cum_e[i]);
-            if dk > ks {
-                ks = dk;
-            }
-            // continuity correction of 1/(2n) in proportions = 0.5 in counts, applied only
-            // when smaller than the difference (as crate::stats::z_stat)
-            let num = if 0.5 < ad { ad - 0.5 } else { ad };
-            let z = num * inv_sd[i];
-            if z > mz {
-                mz = z;
+        let c = &c[..self.k];
+        let (mut sad, mut chi) = ([0.0f64; LANES], [0.0f64; LANES]);
+        // maxima do not depend on the order: plain running values
+        let (mut ks, mut mz) = (0.0f64, 0.0f64);
+        // The counts and their running sum as f64 (exact: integers below 2^53); the padding
+        // (count 0, e = cum_e = inv_sd = 0) adds 0 to every sum and maximum.
+        let mut acc = 0u64;
+        let chunks = self.e.chunks_exact(LANES).zip(self.inv_e.chunks_exact(LANES)).zip(self.cum_e.chunks_exact(LANES)).zip(self.inv_sd.chunks_exact(LANES));
+        for (j, (((e, inv_e), cum_e), inv_sd)) in chunks.enumerate() {
+            for l in 0..LANES {
+                let i = j * LANES + l;
+                let x = if i < self.k { c[i].to_u64() } else { 0 };
+                acc += x;
+                let d = x as i64 as f64 - e[l];
+                let ad = d.abs();
+                sad[l] += ad;
+                chi[l] += d * d * inv_e[l];
+                // cum_e is 0 in the padding, where acc = n: inv_sd's 0 keeps z at 0 there, and
+                // KS takes only the real bins
+                if i < self.k {
+                    let dk = (acc as i64 as f64 - cum_e[l]).abs();
+                    ks = if dk > ks { dk } else { ks };
+                }
+                // continuity correction of 1/(2n) in proportions = 0.5 in counts, applied only
+                // when smaller than the difference (as crate::stats::z_stat); inv_sd is 0 where
+                // p_i is 0 or 1, the 0 of z_stat there
+                let num = if 0.5 < ad { ad - 0.5 } else { ad };
+                let z = num * inv_sd[l];
+                mz = if z > mz { z } else { mz };
             }
         }
-        CountStats { mad: sad / (nf * self.e.len() as f64), chi_square: chi, ks: ks / nf, max_z: mz }
+        CountStats {
+            mad: ((sad[0] + sad[1]) + (sad[2] + sad[3])) / (nf * self.k as f64),
+            chi_square: (chi[0] + chi[1]) + (chi[2] + chi[3]),
+            ks: ks / nf,
+            max_z: mz,
+        }
     }
 }
 
@@ -236,19 +315,27 @@ impl NullTable {
         let mom = Moments::new(n, benford.probs());
         let mut rng = DetRng::stream(seed, &[TAG_NULL, n]);
         let mut cols: [Vec<f64>; 4] = std::array::from_fn(|_| Vec::with_capacity(sims as usize));
-        let mut c = [0u64; BINS];
-        for _ in 0..sims {
-            c.iter_mut().for_each(|x| *x = 0);
-            benford.add(&mut rng, n, &mut c);
-            let s = mom.stats(&c);
-            cols[0].push(s.mad);
-            cols[1].push(s.chi_square);
-            cols[2].push(s.ks);
-            cols[3].push(s.max_z);
+        fn run<C: Count>(benford: &Categorical, n: u64, sims: u32, rng: &mut DetRng, mom: &Moments, cols: &mut [Vec<f64>; 4]) {
+            let mut c = [C::default(); BINS];
+            for _ in 0..sims {
+                c.iter_mut().for_each(|x| *x = C::default());
+                benford.add(rng, n, &mut c);
+                let s = mom.stats(&c);
+                cols[0].push(s.mad);
+                cols[1].push(s.chi_square);
+                cols[2].push(s.ks);
+                cols[3].push(s.max_z);
+            }
         }
+        // u32 counts (half the memory traffic) wherever no bin can overflow them
+        if n <= u32::MAX as u64 {
+            run::<u32>(benford, n, sims, &mut rng, &mom, &mut cols);
+        } else {
+            run::<u64>(benford, n, sims, &mut rng, &mom, &mut cols);
+        }
+        let mut scratch = Vec::new();
         for col in cols.iter_mut() {
-            // total_cmp-equal values are bit-identical, so an unstable sort gives the same column
-            col.sort_unstable_by(|a, b| a.total_cmp(b));
+            sort_f64(col, &mut scratch);
         }
         NullTable { n, sorted: cols }
     }
@@ -316,6 +403,58 @@ impl NullTable {
     }
 }
 
+/// Sort ascending in `f64::total_cmp` order, by an LSD radix sort over the bytes of the
+/// order-preserving integer image of each value (sign bit flipped for positives, all bits for
+/// negatives); bytes on which all keys agree are skipped. The result is the same as
+/// `sort_unstable_by(total_cmp)`: total_cmp-equal values are bit-identical.
+pub fn sort_f64(v: &mut [f64], scratch: &mut Vec<u64>) {
+    #[inline(always)]
+    fn key(x: f64) -> u64 {
+        let b = x.to_bits();
+        if b >> 63 == 1 { !b } else { b | (1 << 63) }
+    }
+    #[inline(always)]
+    fn unkey(k: u64) -> f64 {
+        f64::from_bits(if k >> 63 == 1 { k & !(1 << 63) } else { !k })
+    }
+    let n = v.len();
+    if n < 64 {
+        v.sort_unstable_by(|a, b| a.total_cmp(b));
+        return;
+    }
+    let mut a: Vec<u64> = v.iter().map(|&x| key(x)).collect();
+    scratch.clear();
+    scratch.resize(n, 0);
+    let mut hist = vec![[0u32; 256]; 8];
+    for &k in &a {
+        for (d, h) in hist.iter_mut().enumerate() {
+            h[((k >> (8 * d)) & 0xff) as usize] += 1;
+        }
+    }
+    let mut src = &mut a;
+    let mut dst = scratch;
+    for (d, h) in hist.iter().enumerate() {
+        if h.iter().any(|&c| c as usize == n) {
+            continue; // every key has the same byte here
+        }
+        let mut pos = [0u32; 256];
+        let mut acc = 0u32;
+        for (p, &c) in pos.iter_mut().zip(h.iter()) {
+            *p = acc;
+            acc += c;
+        }
+        for &k in src.iter() {
+            let b = ((k >> (8 * d)) & 0xff) as usize;
+            dst[pos[b] as usize] = k;
+            pos[b] += 1;
+        }
+        std::mem::swap(&mut src, &mut dst);
+    }
+    for (x, &k) in v.iter_mut().zip(src.iter()) {
+        *x = unkey(k);
+    }
+}
+
 /// Threads used natively to simulate a batch of missing null tables ([`Calibrator::prepare`]).
 pub const TABLE_THREADS: usize = 2;
 
@@ -342,16 +481,29 @@ pub fn split_sizes(ns: &[u64], parts: usize) -> Vec<Vec<u64>> {
     out
 }
 
-/// The grid point g's sample size: round(10^(g / GRID_PER_DECADE)).
+/// The grid point g's sample size: round(10^(g / GRID_PER_DECADE)) up to 10^COARSE_FROM_DECADE,
+/// then round(10^(COARSE_FROM_DECADE + (g - g_c) / COARSE_PER_DECADE)) beyond (g_c the grid
+/// index of 10^COARSE_FROM_DECADE).
 pub fn grid_n(g: u32) -> u64 {
-    libm::round(libm::pow(10.0, g as f64 / GRID_PER_DECADE as f64)) as u64
+    let gc = COARSE_FROM_DECADE * GRID_PER_DECADE;
+    let e = if g <= gc {
+        g as f64 / GRID_PER_DECADE as f64
+    } else {
+        COARSE_FROM_DECADE as f64 + (g - gc) as f64 / COARSE_PER_DECADE as f64
+    };
+    libm::round(libm::pow(10.0, e)) as u64
 }
 
 /// Largest grid index with grid_n(g) <= n (n >= 1).
 fn grid_floor(n: u64) -> u32 {
-    let mut g = libm::floor(GRID_PER_DECADE as f64 * libm::log10(n as f64)) as i64;
-    g = g.max(0);
-    let mut g = g as u32;
+    let l = libm::log10(n as f64);
+    let gc = COARSE_FROM_DECADE * GRID_PER_DECADE;
+    let g = if l <= COARSE_FROM_DECADE as f64 {
+        libm::floor(GRID_PER_DECADE as f64 * l)
+    } else {
+        gc as f64 + libm::floor(COARSE_PER_DECADE as f64 * (l - COARSE_FROM_DECADE as f64))
+    };
+    let mut g = g.max(0.0) as u32;
     while grid_n(g + 1) <= n {
         g += 1;
     }
@@ -359,6 +511,16 @@ fn grid_floor(n: u64) -> u32 {
         g -= 1;
     }
     g
+}
+
+/// The grid index of the power checkpoint after the one at grid index g: every other grid point
+/// (POWER_PER_DECADE a decade) up to 10^COARSE_FROM_DECADE, every grid point beyond.
+fn next_checkpoint(g: u32) -> u32 {
+    if g < COARSE_FROM_DECADE * GRID_PER_DECADE {
+        g + GRID_PER_DECADE / POWER_PER_DECADE
+    } else {
+        g + 1
+    }
 }
 
 /// First-two digit probabilities of a continuous uniform on [a, b] (0 < a <= b): the overlap of
@@ -432,8 +594,11 @@ pub struct SupplierCalibration {
     /// The p-value after the correction across the list (None for a single-supplier call).
     pub adjusted_p_value: Option<f64>,
     pub verdict: Verdict,
-    /// Power at this n against 100 % evenly spread fabricated amounts (basis of `too_few`).
+    /// Power at this n against 100 % evenly spread fabricated amounts (basis of `too_few`),
+    /// estimated from `power_full_sims` samples (a sequential decision against the target
+    /// power: fewer samples when the answer is clear early; see [`power`]).
     pub power_full_fabrication: f64,
+    pub power_full_sims: u32,
     /// Smallest n at which the deviation model is detected with the chosen power; None when
     /// not reached by `max_invoices`.
     pub invoices_needed: Option<u64>,
@@ -472,13 +637,31 @@ pub struct Calibrator {
     benford: Categorical,
     tables: HashMap<u64, NullTable>,
     threads: usize,
+    /// Honest parts of the even-spread power paths, shared by every supplier's curve.
+    honest: Option<power::HonestPaths>,
+    /// The sequential power decision's bounds for (target power bits).
+    seq_bounds: Option<(u64, Vec<(u32, i64, i64)>)>,
+    /// Power work done per supplier key (here or by another Worker).
+    powers: HashMap<power::PowerKey, power::PowerResult>,
+    /// Power curves per model (amount range, and the counts' hash for the observed profile).
+    curves: HashMap<(i64, i64, u64), Vec<PowerPoint>>,
 }
 
 impl Calibrator {
     pub fn new(opts: CalibrationOptions) -> Calibrator {
         assert!(opts.sims >= 1, "sims >= 1");
         assert!(opts.confidence > 0.0 && opts.confidence < 1.0, "0 < confidence < 1");
-        Calibrator { opts, benford: Categorical::new(&benford::first_two()), tables: HashMap::new(), threads: TABLE_THREADS }
+        assert!(opts.max_invoices < 1 << 31, "power paths count in u32: max_invoices < 2^31");
+        Calibrator {
+            opts,
+            benford: Categorical::new(&benford::first_two()),
+            tables: HashMap::new(),
+            threads: TABLE_THREADS,
+            honest: None,
+            seq_bounds: None,
+            powers: HashMap::new(),
+            curves: HashMap::new(),
+        }
     }
 
     pub fn options(&self) -> &CalibrationOptions {
@@ -493,6 +676,11 @@ impl Calibrator {
     pub fn table(&mut self, n: u64) -> &NullTable {
         let (b, sims, seed) = (&self.benford, self.opts.sims, self.opts.seed);
         self.tables.entry(n).or_insert_with(|| NullTable::simulate(b, n, sims, seed))
+    }
+
+    /// The cached table at exactly n, if simulated already.
+    pub fn cached_table(&self, n: u64) -> Option<&NullTable> {
+        self.tables.get(&n)
     }
 
     /// Number of cached tables.
@@ -637,11 +825,12 @@ impl Calibrator {
     }
 
     /// Power curve of the calibrated MAD test against `model` at the checkpoints
-    /// 10^(j/4) (j = 4, 5, ...), by `power_sims` nested paths: path i is one growing honest-or-
+    /// 10^(j/4) (j = 4, 5, ..., 16; then 10^(j/2), j = 9, 10, ...), by `power_sims` nested paths: path i is one growing honest-or-
     /// fabricated invoice stream from (seed, "power", i), its counts at each checkpoint an exact
-    /// multinomial draw of that size. Stops at the first checkpoint >= `at_least` whose power is
-    /// >= max(target, 0.95), or at `max_invoices`.
-    pub fn power_curve(&mut self, model: &[f64], target: f64, at_least: u64) -> Vec<PowerPoint> {
+    /// multinomial draw of that size. Stops at the first checkpoint whose power is
+    /// >= max(target, 0.95) (detection is then all but certain at any larger size: the curve is
+    /// not drawn further, whatever the supplier's own size), or at `max_invoices`.
+    pub fn power_curve(&mut self, model: &[f64], target: f64) -> Vec<PowerPoint> {
         let cat = Categorical::new(model);
         let sims = self.opts.power_sims.max(1) as usize;
         let alpha = self.alpha();
@@ -649,7 +838,6 @@ impl Calibrator {
         let mut rngs: Vec<DetRng> = (0..sims as u64).map(|i| DetRng::stream(self.opts.seed, &[TAG_POWER, i])).collect();
         let mut out = Vec::new();
         let mut prev = 0u64;
-        let step = GRID_PER_DECADE / POWER_PER_DECADE;
         let mut g = GRID_PER_DECADE; // n = 10
         loop {
             let n = grid_n(g);
@@ -668,10 +856,10 @@ impl Calibrator {
             let power = hits as f64 / sims as f64;
             out.push(PowerPoint { invoices: n, power });
             prev = n;
-            if power >= target.max(0.95) && n >= at_least {
+            if power >= target.max(0.95) {
                 break;
             }
-            g += step;
+            g = next_checkpoint(g);
         }
         out
     }
@@ -712,26 +900,49 @@ impl Calibrator {
         let base = self.null_only(first_two_counts);
         assert_eq!(base.invoices, n, "n must equal the sum of the first-two counts");
         let alarm = base.mc_p_value <= self.alpha();
-        self.finish(base, None, alarm, first_two_counts, amount_min, amount_max)
+        let input = SupplierInput { first_two_counts: first_two_counts.to_vec(), amount_min, amount_max };
+        self.finish(base, None, alarm, &input)
     }
 
     /// Calibrate a whole supplier list with the chosen correction across it (q = 1 - confidence).
     pub fn ledger(&mut self, inputs: &[SupplierInput]) -> LedgerCalibration {
         // All null tables first, over threads: those of the suppliers' own sizes and the power
-        // checkpoints every curve passes (10^(j/4) up to the first at or above the largest n).
+        // checkpoints every curve passes (every checkpoint up to the first at or above the largest n).
         let ns: Vec<u64> = inputs.iter().map(|s| s.first_two_counts.iter().sum()).collect();
         let ns = self.ledger_sizes(&ns);
         self.prepare(&ns, self.threads);
+        self.powers(inputs, self.threads);
         let bases: Vec<NullCalibration> = inputs.iter().map(|s| self.null_only(&s.first_two_counts)).collect();
         let ps: Vec<f64> = bases.iter().map(|b| b.mc_p_value).collect();
         let q = self.alpha();
         let adj = adjust(&ps, self.opts.correction, q);
         let mut suppliers = Vec::with_capacity(inputs.len());
         for ((inp, base), a) in inputs.iter().zip(bases).zip(&adj) {
-            suppliers.push(self.finish(base, Some(a.adjusted_p), a.alarm, &inp.first_two_counts, inp.amount_min, inp.amount_max));
+            suppliers.push(self.finish(base, Some(a.adjusted_p), a.alarm, inp));
         }
         let alarm_indices: Vec<usize> = adj.iter().enumerate().filter(|(_, a)| a.alarm).map(|(i, _)| i).collect();
         LedgerCalibration { correction: self.opts.correction, q, alarms: alarm_indices.len(), alarm_indices, suppliers }
+    }
+
+    /// The null tables almost every screen reads whatever its suppliers: the power-curve
+    /// checkpoints from 10 to 10,000 invoices (every curve starts at 10 and most reach 95 %
+    /// detection by then), those not cached yet. Another thread or Worker can simulate them
+    /// while the ledger is still being read.
+    pub fn likely_tables(&self) -> Vec<u64> {
+        let mut ns = Vec::new();
+        let mut g = GRID_PER_DECADE;
+        while g <= COARSE_FROM_DECADE * GRID_PER_DECADE && grid_n(g) <= self.opts.max_invoices {
+            ns.push(grid_n(g));
+            g = next_checkpoint(g);
+        }
+        self.missing_tables(&ns)
+    }
+
+    /// Every cached table (e.g. to keep them for the next screen with the same seed and sims).
+    pub fn take_tables(&mut self) -> Vec<NullTable> {
+        let mut v: Vec<NullTable> = self.tables.drain().map(|(_, t)| t).collect();
+        v.sort_by_key(|t| t.n);
+        v
     }
 
     /// The null-table sizes [`Calibrator::ledger`] needs for suppliers of sizes `ns` that are
@@ -741,7 +952,7 @@ impl Calibrator {
         self.missing_tables(&self.ledger_sizes(ns))
     }
 
-    /// The suppliers' sizes and the power checkpoints every curve passes (10^(j/4) up to the
+    /// The suppliers' sizes and the power checkpoints every curve passes (up to the
     /// first at or above the largest n).
     fn ledger_sizes(&self, ns: &[u64]) -> Vec<u64> {
         let mut ns = ns.to_vec();
@@ -752,25 +963,14 @@ impl Calibrator {
             if grid_n(g) >= nmax {
                 break;
             }
-            g += GRID_PER_DECADE / POWER_PER_DECADE;
+            g = next_checkpoint(g);
         }
         ns
     }
 
-    fn finish(
-        &mut self,
-        base: NullCalibration,
-        adjusted: Option<f64>,
-        alarm: bool,
-        counts: &[u64],
-        amount_min: Amount,
-        amount_max: Amount,
-    ) -> SupplierCalibration {
+    fn finish(&mut self, base: NullCalibration, adjusted: Option<f64>, alarm: bool, input: &SupplierInput) -> SupplierCalibration {
         let n = base.invoices;
-        let full = even_spread(amount_min, amount_max, 1.0);
-        let power_full = self.power_at(&full, n, TAG_FULL);
-        let model = self.deviation_probs(counts, amount_min, amount_max);
-        let curve = self.power_curve(&model, self.opts.power, n);
+        let power::PowerResult { power_full, power_full_sims, curve } = self.power_of(input);
         let needed = Self::invoices_needed(&curve, self.opts.power);
         let verdict = if alarm {
             Verdict::Deviates
@@ -790,6 +990,7 @@ impl Calibrator {
             adjusted_p_value: adjusted,
             verdict,
             power_full_fabrication: power_full,
+            power_full_sims,
             invoices_needed: needed,
             more_invoices_needed: needed.map(|m| m.saturating_sub(n)),
             power_curve: curve,
@@ -806,17 +1007,33 @@ impl Calibrator {
 /// A range that is empty or not positive falls back to a point mass at the larger amount's
 /// digits, or to Benford when both are zero.
 fn even_spread(amount_min: Amount, amount_max: Amount, share: f64) -> [f64; BINS] {
+    match even_spread_uniform(amount_min, amount_max) {
+        Some(u) => {
+            let p = benford::first_two();
+            let s = share.clamp(0.0, 1.0);
+            std::array::from_fn(|i| (1.0 - s) * p[i] + s * u[i])
+        }
+        None => {
+            let p = benford::first_two();
+            std::array::from_fn(|i| p[i])
+        }
+    }
+}
+
+/// The first-two digit law of amounts uniform over the supplier's range (absolute values, in
+/// currency units); a range whose lower end is not positive is taken as the point at the upper
+/// end. None when both ends are zero (the even-spread model then falls back to Benford).
+fn even_spread_uniform(amount_min: Amount, amount_max: Amount) -> Option<[f64; BINS]> {
     let (a, b) = {
         let x = amount_min.abs().to_f64();
         let y = amount_max.abs().to_f64();
         (x.min(y), x.max(y))
     };
     if b <= 0.0 {
-        let p = benford::first_two();
-        return std::array::from_fn(|i| p[i]);
+        return None;
     }
     let a = if a <= 0.0 { b } else { a };
-    even_spread_mixture(a, b, share)
+    Some(uniform_first_two(a, b))
 }
 
 #[cfg(test)]
@@ -843,10 +1060,22 @@ mod tests {
     fn grid_brackets() {
         assert_eq!(grid_n(8), 10);
         assert_eq!(grid_n(24), 1000);
-        for n in [100u64, 101, 999, 1000, 1001, 54_321, 99_999] {
+        assert_eq!(grid_n(32), 10_000);
+        assert_eq!(grid_n(33), 31_623);
+        assert_eq!(grid_n(34), 100_000);
+        assert!((1..60).all(|g| grid_n(g) > grid_n(g - 1) || grid_n(g) < 10), "grid ascending");
+        for n in [100u64, 101, 999, 1000, 1001, 9_999, 10_000, 10_001, 31_622, 31_623, 54_321, 99_999, 100_000, 5_000_000] {
             let g = grid_floor(n);
             assert!(grid_n(g) <= n && n < grid_n(g + 1), "{n}");
         }
+        // power checkpoints: 10^(1/4) steps to 10,000, then 10^(1/2)
+        let mut g = 8;
+        let mut cps = vec![];
+        while grid_n(g) <= 100_000 {
+            cps.push(grid_n(g));
+            g = next_checkpoint(g);
+        }
+        assert_eq!(cps, [10, 18, 32, 56, 100, 178, 316, 562, 1000, 1778, 3162, 5623, 10_000, 31_623, 100_000]);
     }
 
     #[test]
@@ -862,6 +1091,28 @@ mod tests {
         assert!((s.ks - crate::stats::ks(&c, &p)).abs() < 1e-12);
         let mz = (0..90).map(|i| crate::stats::z_stat(c[i], 777, p[i])).fold(0.0, f64::max);
         assert!((s.max_z - mz).abs() < 1e-9);
+    }
+
+    #[test]
+    fn radix_sort_matches_total_cmp_sort() {
+        let mut rng = DetRng::seed_from_u64(11);
+        let mut scratch = Vec::new();
+        for n in [0usize, 1, 63, 64, 65, 1000, 10_000] {
+            let mut v: Vec<f64> = (0..n)
+                .map(|i| match i % 7 {
+                    0 => -0.0,
+                    1 => 0.0,
+                    2 => -(rng.next_f64() * 1e6),
+                    3 => f64::INFINITY,
+                    4 => (rng.below(50) as f64) * 0.25, // ties
+                    _ => rng.next_f64() * libm::pow(10.0, (rng.below(40) as f64) - 20.0),
+                })
+                .collect();
+            let mut want = v.clone();
+            want.sort_unstable_by(|a, b| a.total_cmp(b));
+            sort_f64(&mut v, &mut scratch);
+            assert_eq!(v.iter().map(|x| x.to_bits()).collect::<Vec<_>>(), want.iter().map(|x| x.to_bits()).collect::<Vec<_>>(), "n={n}");
+        }
     }
 
     #[test]

@@ -9,19 +9,31 @@
 //!   invoices per 64-bit draw. Cost O(n). The table size changes only speed: the category is
 //!   always the one whose threshold interval holds the 32 bits, so counts are the same for any
 //!   table size.
-//! - **Conditional binomials** (the multinomial factorises into a chain of binomials,
-//!   count_i ~ Bin(n - sum_{j<i} count_j, p_i / sum_{j>=i} p_j)), each binomial drawn with
-//!   inversion (np < 30) or BTPE (Kachitvichyanukul & Schmeiser, "Binomial random variate
-//!   generation", CACM 31(2), 1988). Cost O(categories), independent of n.
+//! - **Binomial splitting** (the multinomial factorises into binomials: the invoices of a group
+//!   of categories split between its two halves as Binomial(n_group, p_half / p_group), halved
+//!   again down to single categories, k - 1 binomials in a balanced tree), each binomial drawn with
+//!   inversion (np < 10) or BTRS (Hörmann, "The generation of binomial random variates",
+//!   J. Statist. Comput. Simul. 46, 1993). Cost O(categories), independent of n.
 //!
 //! All floating point work uses `libm` (pure Rust) so the same seed gives the same counts on
 //! every platform.
 
+use super::Count;
 use crate::rng::DetRng;
 
 pub const MAX_BINS: usize = 128;
-const GUIDE_BITS: u32 = 14;
-const GUIDE: usize = 1 << GUIDE_BITS;
+/// Guide-table size (bits) for distributions sampled millions of times (Benford's law): 16,384
+/// one-byte entries, about 0.5 % of which straddle a threshold. [`Categorical::small`] makes a
+/// 1,024-entry table for distributions sampled less (quicker to build, more walks).
+pub const GUIDE_BITS: u32 = 14;
+const SMALL_GUIDE_BITS: u32 = 10;
+
+/// A guide table of 2^BITS entries (fixed sizes, so that look-ups need no bounds check).
+#[derive(Clone, Debug)]
+enum Guide {
+    Large(Box<[u8; 1 << GUIDE_BITS]>),
+    Small(Box<[u8; 1 << SMALL_GUIDE_BITS]>),
+}
 /// Guide entry flag: the entry straddles a threshold (walk from its first category).
 const WALK: u8 = 0x80;
 
@@ -37,15 +49,39 @@ pub struct Categorical {
     /// thr[i] = round(2^32 * (p_0 + ... + p_i)); thr[i] = 2^32 for i >= k-1 (padded to 128 so
     /// that every index a guide entry can produce is in bounds without a check).
     thr: Box<[u64; MAX_BINS]>,
-    guide: Box<[u8; GUIDE]>,
-    /// cond[i] = p_i / (p_i + ... + p_{k-1}), for the binomial chain.
-    cond: Vec<f64>,
+    /// The category of the first 32-bit value of each bucket, WALK-flagged when the bucket
+    /// straddles a threshold.
+    guide: Guide,
+    /// The binary splitting tree, breadth first: node j sends each of its invoices left with
+    /// probability `split[j].left_p`.
+    split: Vec<Split>,
 }
+
+/// One internal node of the splitting tree over categories [lo, hi): left is [lo, mid).
+#[derive(Clone, Copy, Debug)]
+struct Split {
+    /// P(left | this node) = (p_lo + ... + p_{mid-1}) / (p_lo + ... + p_{hi-1}).
+    left_p: f64,
+    /// Where each side's invoices go: a node index, or LEAF | category.
+    left: u16,
+    right: u16,
+}
+const LEAF: u16 = 0x8000;
 
 impl Categorical {
     /// From non-negative weights (normalised here). Panics on an empty, all-zero or
     /// over-long (> 128) input, or on a negative or non-finite weight.
     pub fn new(weights: &[f64]) -> Categorical {
+        Categorical::build(weights, GUIDE_BITS)
+    }
+
+    /// As [`Categorical::new`] with a 1,024-entry guide table. The table size changes only
+    /// speed, never the counts drawn.
+    pub fn small(weights: &[f64]) -> Categorical {
+        Categorical::build(weights, SMALL_GUIDE_BITS)
+    }
+
+    fn build(weights: &[f64], bits: u32) -> Categorical {
         let k = weights.len();
         assert!(k >= 1 && k <= MAX_BINS, "1..=128 categories");
         assert!(weights.iter().all(|w| w.is_finite() && *w >= 0.0), "weights must be finite and >= 0");
@@ -67,8 +103,9 @@ impl Categorical {
         // Zero-weight categories must never be drawn: their threshold interval is empty
         // (t == prev) by construction. A positive weight rounded to an empty interval has
         // probability < 2^-33, the documented quantisation.
-        let mut guide = Box::new([0u8; GUIDE]);
-        let width = 1u64 << (32 - GUIDE_BITS);
+        let mut table = vec![0u8; 1 << bits];
+        let guide = &mut table;
+        let width = 1u64 << (32 - bits);
         let mut j = 0usize;
         for (b, slot) in guide.iter_mut().enumerate() {
             let lo = b as u64 * width;
@@ -80,22 +117,39 @@ impl Categorical {
             *slot = if thr[j] >= hi { j as u8 } else { j as u8 | WALK };
         }
 
-        let mut tail = vec![0.0f64; k + 1];
-        for i in (0..k).rev() {
-            tail[i] = tail[i + 1] + probs[i];
+        // Splitting tree: halve [lo, hi) by category count (balanced depth, so the binomials of
+        // one level do not wait on each other), breadth first.
+        let mut split: Vec<Split> = Vec::new();
+        let mut ranges: Vec<(usize, usize)> = Vec::new();
+        if k > 1 {
+            ranges.push((0, k));
         }
-        let cond = (0..k)
-            .map(|i| {
-                if i + 1 == k {
-                    1.0
-                } else if tail[i] > 0.0 {
-                    (probs[i] / tail[i]).clamp(0.0, 1.0)
+        let mut j = 0;
+        while j < ranges.len() {
+            let (lo, hi) = ranges[j];
+            let mid = lo + (hi - lo) / 2;
+            let mass = |a: usize, b: usize| probs[a..b].iter().sum::<f64>();
+            let (ml, mt) = (mass(lo, mid), mass(lo, hi));
+            let left_p = if mt > 0.0 { (ml / mt).clamp(0.0, 1.0) } else { 0.0 };
+            let mut side = |a: usize, b: usize| -> u16 {
+                if b - a == 1 {
+                    LEAF | a as u16
                 } else {
-                    0.0
+                    ranges.push((a, b));
+                    (ranges.len() - 1) as u16
                 }
-            })
-            .collect();
-        Categorical { k, probs, thr, guide, cond }
+            };
+            let left = side(lo, mid);
+            let right = side(mid, hi);
+            split.push(Split { left_p, left, right });
+            j += 1;
+        }
+        let guide = if bits == GUIDE_BITS {
+            Guide::Large(table.into_boxed_slice().try_into().expect("guide size"))
+        } else {
+            Guide::Small(table.into_boxed_slice().try_into().expect("guide size"))
+        };
+        Categorical { k, probs, thr, guide, split }
     }
 
     pub fn len(&self) -> usize {
@@ -116,7 +170,7 @@ impl Categorical {
 
     /// Add a Multinomial(n, p) draw to `counts` (length >= k), by the faster exact method.
     #[inline]
-    pub fn add(&self, rng: &mut DetRng, n: u64, counts: &mut [u64]) {
+    pub fn add<C: Count>(&self, rng: &mut DetRng, n: u64, counts: &mut [C]) {
         if n <= GUIDE_MAX_N {
             self.add_guided(rng, n, counts)
         } else {
@@ -125,7 +179,7 @@ impl Categorical {
     }
 
     /// Guide-table method, one category look-up per invoice.
-    pub fn add_guided(&self, rng: &mut DetRng, n: u64, counts: &mut [u64]) {
+    pub fn add_guided<C: Count>(&self, rng: &mut DetRng, n: u64, counts: &mut [C]) {
         assert!(counts.len() >= self.k);
         // u32 local counters: split huge n into chunks that cannot overflow them
         let mut left = n;
@@ -138,8 +192,9 @@ impl Categorical {
 
     /// The category of the 32-bit uniform u (same answer as a plain search of `thr`).
     #[inline(always)]
-    fn category(guide: &[u8; GUIDE], thr: &[u64; MAX_BINS], u: u32) -> usize {
-        let g = guide[(u >> (32 - GUIDE_BITS)) as usize];
+    fn category<const N: usize>(guide: &[u8; N], thr: &[u64; MAX_BINS], u: u32) -> usize {
+        // N = 2^bits: the bucket u >> (32 - bits) = (u as u64 * N) >> 32 is always < N
+        let g = guide[((u as u64 * N as u64) >> 32) as usize];
         if g & WALK == 0 {
             return g as usize;
         }
@@ -150,13 +205,34 @@ impl Categorical {
         j
     }
 
-    fn guided_chunk(&self, rng: &mut DetRng, n: u64, counts: &mut [u64]) {
+    fn guided_chunk<C: Count>(&self, rng: &mut DetRng, n: u64, counts: &mut [C]) {
+        match &self.guide {
+            Guide::Large(g) => self.guided_with(&**g, rng, n, counts),
+            Guide::Small(g) => self.guided_with(&**g, rng, n, counts),
+        }
+    }
+
+    #[inline(always)]
+    fn guided_with<C: Count, const N: usize>(&self, guide: &[u8; N], rng: &mut DetRng, n: u64, counts: &mut [C]) {
+        let thr: &[u64; MAX_BINS] = &self.thr;
+        let counts = &mut counts[..self.k];
+        if n < 64 {
+            // few invoices: straight into the counts (clearing and summing local counters
+            // would cost more than the draws)
+            for _ in 0..n / 2 {
+                let x = rng.next_u64();
+                counts[Self::category(guide, thr, x as u32)].add_u64(1);
+                counts[Self::category(guide, thr, (x >> 32) as u32)].add_u64(1);
+            }
+            if n % 2 == 1 {
+                counts[Self::category(guide, thr, rng.next_u32())].add_u64(1);
+            }
+            return;
+        }
         // Two counter arrays, one per half of each 64-bit draw, so that two invoices landing in
         // the same bin do not wait on each other's increment; summed at the end (same counts).
         let mut c0 = [0u32; MAX_BINS];
         let mut c1 = [0u32; MAX_BINS];
-        let guide: &[u8; GUIDE] = &self.guide;
-        let thr: &[u64; MAX_BINS] = &self.thr;
         for _ in 0..n / 2 {
             let x = rng.next_u64();
             c0[Self::category(guide, thr, x as u32) & (MAX_BINS - 1)] += 1;
@@ -166,27 +242,35 @@ impl Categorical {
             c0[Self::category(guide, thr, rng.next_u32()) & (MAX_BINS - 1)] += 1;
         }
         for i in 0..self.k {
-            counts[i] += (c0[i] + c1[i]) as u64;
+            counts[i].add_u64((c0[i] + c1[i]) as u64);
         }
     }
 
-    /// Conditional-binomial method.
-    pub fn add_binomial(&self, rng: &mut DetRng, n: u64, counts: &mut [u64]) {
+    /// Binomial splitting: the invoices of each tree node are split between its halves by one
+    /// Binomial(n_node, P(left | node)) draw, from the root down (breadth first).
+    pub fn add_binomial<C: Count>(&self, rng: &mut DetRng, n: u64, counts: &mut [C]) {
         assert!(counts.len() >= self.k);
-        let mut rem = n;
-        for i in 0..self.k - 1 {
-            if rem == 0 {
-                return;
-            }
-            let x = binomial(rng, rem, self.cond[i]);
-            counts[i] += x;
-            rem -= x;
+        if self.split.is_empty() {
+            counts[0].add_u64(n);
+            return;
         }
-        counts[self.k - 1] += rem;
+        let mut node_n = [0u64; MAX_BINS];
+        node_n[0] = n;
+        for (j, sp) in self.split.iter().enumerate() {
+            let m = node_n[j];
+            let l = binomial(rng, m, sp.left_p);
+            for (side, x) in [(sp.left, l), (sp.right, m - l)] {
+                if side & LEAF != 0 {
+                    counts[(side & !LEAF) as usize].add_u64(x);
+                } else {
+                    node_n[side as usize] = x;
+                }
+            }
+        }
     }
 }
 
-/// One Binomial(n, p) variate: inversion when n·min(p, 1-p) < 30, BTPE otherwise.
+/// One Binomial(n, p) variate: inversion when n·min(p, 1-p) < 10, BTRS otherwise.
 pub fn binomial(rng: &mut DetRng, n: u64, p: f64) -> u64 {
     if n == 0 || p <= 0.0 {
         return 0;
@@ -196,7 +280,7 @@ pub fn binomial(rng: &mut DetRng, n: u64, p: f64) -> u64 {
     }
     let flip = p > 0.5;
     let r = if flip { 1.0 - p } else { p };
-    let y = if (n as f64) * r < 30.0 { binomial_inversion(rng, n, r) } else { binomial_btpe(rng, n, r) };
+    let y = if (n as f64) * r < BTRS_MIN_NP { binomial_inversion(rng, n, r) } else { binomial_btrs(rng, n, r) };
     if flip {
         n - y
     } else {
@@ -204,7 +288,11 @@ pub fn binomial(rng: &mut DetRng, n: u64, p: f64) -> u64 {
     }
 }
 
-/// Sequential-search inversion from 0 (BINV in Kachitvichyanukul & Schmeiser 1988), r <= 0.5.
+/// BTRS is valid from n·p >= 10 (Hörmann 1993, section 3).
+const BTRS_MIN_NP: f64 = 10.0;
+
+/// Sequential-search inversion from 0 (BINV in Kachitvichyanukul & Schmeiser, "Binomial random
+/// variate generation", CACM 31(2), 1988), r <= 0.5.
 fn binomial_inversion(rng: &mut DetRng, n: u64, r: f64) -> u64 {
     let q = 1.0 - r;
     let nf = n as f64;
@@ -228,8 +316,8 @@ fn binomial_inversion(rng: &mut DetRng, n: u64, r: f64) -> u64 {
     }
 }
 
-/// floor(x), bit for bit as `libm::floor` (including -0.0), inlined: BTPE takes several per
-/// variate and a call into libm's software floor cost more than the rest of its setup.
+/// floor(x), bit for bit as `libm::floor` (including -0.0), inlined: the sampler takes one
+/// per try and a call into libm's software floor cost more than the rest of the try.
 /// Exact because every non-integral f64 has |x| < 2^52, where the i64 conversion is exact.
 #[inline(always)]
 fn floor(x: f64) -> f64 {
@@ -246,101 +334,106 @@ fn floor(x: f64) -> f64 {
     }
 }
 
-/// log(k!) via libm's lgamma (pure Rust).
+/// log(k!) - [(k + 1/2) log(k + 1) - (k + 1) + log(2 pi)/2], the tail of Stirling's series
+/// for log(k!), as used by Hörmann (1993) for BTRD/BTRS: exact values for k < 10 (from
+/// lgamma), the series 1/12 - 1/360 + 1/1260 in 1/(k+1) beyond (absolute error < 1e-10).
 #[inline]
-fn log_fact(k: f64) -> f64 {
-    libm::lgamma(k + 1.0)
+fn stirling_tail(k: f64) -> f64 {
+    const TAIL: [f64; 10] = [
+        0.0810614667953272,
+        0.0413406959554092,
+        0.0276779256849983,
+        0.02079067210376509,
+        0.0166446911898211,
+        0.0138761288230707,
+        0.0118967099458917,
+        0.0104112652619720,
+        0.00925546218271273,
+        0.00833056343336287,
+    ];
+    if k < 10.0 {
+        return TAIL[k as usize];
+    }
+    let kp1 = k + 1.0;
+    let r = 1.0 / kp1;
+    let r2 = r * r;
+    (1.0 / 12.0 - (1.0 / 360.0 - (1.0 / 1260.0) * r2) * r2) * r
 }
 
-/// BTPE (Kachitvichyanukul & Schmeiser 1988, algorithm BTPE, steps 0-5.3), r <= 0.5 and
-/// n·r >= 30. The final acceptance test compares with the exact log-ratio f(y)/f(M) computed
-/// from lgamma instead of the paper's Stirling-series expansion (same test, exact).
-fn binomial_btpe(rng: &mut DetRng, n: u64, r: f64) -> u64 {
+/// BTRS, "transformed rejection with squeeze" (W. Hörmann, "The generation of binomial random
+/// variates", J. Statist. Comput. Simul. 46, 1993, 101-110, algorithm BTRS), for r <= 0.5 and
+/// n·r >= 10. Each try takes two uniforms; about 80 % of tries are accepted by the box test
+/// alone. Otherwise the try is accepted iff log(v·alpha / (a/us² + b)) <= log f(k) - log f(m)
+/// (f the binomial probability function, m = floor((n+1) r) its mode). The log-ratio is first
+/// bracketed by BTPE's squeeze t ± rho (Kachitvichyanukul & Schmeiser 1988, step 5.2), which
+/// settles most such tries with one logarithm; the rest evaluate it with Stirling's series as
+/// in the paper (error below 1e-10; the terms in m once per variate).
+fn binomial_btrs(rng: &mut DetRng, n: u64, r: f64) -> u64 {
     let nf = n as f64;
     let q = 1.0 - r;
-    let nrq = nf * r * q;
-    let fm = nf * r + r;
-    let m = floor(fm);
-    let p1 = floor(2.195 * libm::sqrt(nrq) - 4.6 * q) + 0.5;
-    let xm = m + 0.5;
-    let xl = xm - p1;
-    let xr = xm + p1;
-    let c = 0.134 + 20.5 / (15.3 + m);
-    let a = (fm - xl) / (fm - xl * r);
-    let lam_l = a * (1.0 + 0.5 * a);
-    let a = (xr - fm) / (xr * q);
-    let lam_r = a * (1.0 + 0.5 * a);
-    let p2 = p1 * (1.0 + 2.0 * c);
-    let p3 = p2 + c / lam_l;
-    let p4 = p3 + c / lam_r;
-    let s = r / q;
-    let mi = m as u64;
+    let npq = nf * r * q;
+    // IEEE 754 square root is correctly rounded, so the hardware instruction (sqrtsd, wasm's
+    // f64.sqrt) gives the same bits on every platform, and much faster than a software one
+    let spq = npq.sqrt();
+    let b = 1.15 + 2.53 * spq;
+    let a = -0.0873 + 0.0248 * b + 0.01 * r;
+    let c = nf * r + 0.5;
+    let inv_b = 1.0 / b;
+    let v_r = 0.92 - 4.2 * inv_b;
+    let two_a = 2.0 * a;
+    let alpha = (2.83 + 5.1 * inv_b) * spq;
+    let m = floor((nf + 1.0) * r);
+    let inv_npq = 1.0 / npq;
+    let squeeze_below = npq / 2.0 - 1.0;
+    // the terms of the exact log-ratio that do not depend on k, on the first try that needs them
+    let mut slow: Option<(f64, f64)> = None;
     loop {
-        // Step 1
-        let u = rng.next_f64() * p4;
-        let mut v = rng.next_open01();
-        let y: f64;
-        if u <= p1 {
-            // triangular region: always accepted
-            return floor(xm - p1 * v + u) as u64;
-        } else if u <= p2 {
-            // Step 2: parallelograms
-            let x = xl + (u - p1) / c;
-            v = v * c + 1.0 - libm::fabs(m - x + 0.5) / p1;
-            if v > 1.0 {
-                continue;
-            }
-            y = floor(x);
-        } else if u <= p3 {
-            // Step 3: left exponential tail
-            y = floor(xl + libm::log(v) / lam_l);
-            if y < 0.0 {
-                continue;
-            }
-            v *= (u - p2) * lam_l;
-        } else {
-            // Step 4: right exponential tail
-            y = floor(xr - libm::log(v) / lam_r);
-            if y > nf {
-                continue;
-            }
-            v *= (u - p3) * lam_r;
-        }
-        // Step 5: acceptance / rejection of y with v ~ U(0, hat(y)/hat(M))
-        let k = libm::fabs(y - m);
-        if k <= 20.0 || k >= nrq / 2.0 - 1.0 {
-            // Step 5.1: explicit evaluation of f(y)/f(M) by the recurrence
-            let yi = y as u64;
-            let a = s * (nf + 1.0);
-            let mut f = 1.0f64;
-            if mi < yi {
-                for i in (mi + 1)..=yi {
-                    f *= a / i as i64 as f64 - s;
-                }
-            } else if mi > yi {
-                for i in (yi + 1)..=mi {
-                    f /= a / i as i64 as f64 - s;
-                }
-            }
-            if v <= f {
-                return yi;
-            }
+        let u = rng.next_open01() - 0.5;
+        let v = rng.next_open01();
+        let us = 0.5 - libm::fabs(u);
+        let y = (two_a / us + b) * u + c;
+        // floor(y) for y >= 0 is the truncation (saturating far above n); y < 0 is rejected
+        if !(y >= 0.0) {
             continue;
         }
-        // Step 5.2: squeeze on log f(y)/f(M)
-        let rho = (k / nrq) * ((k * (k / 3.0 + 0.625) + 0.1666666666666) / nrq + 0.5);
-        let t = -k * k / (2.0 * nrq);
-        let av = libm::log(v);
-        if av < t - rho {
-            return y as u64;
-        }
-        if av > t + rho {
+        let ki = y as u64;
+        if ki > n {
             continue;
         }
-        // Step 5.3: exact log f(y) - log f(M)
-        let lf = log_fact(m) + log_fact(nf - m) - log_fact(y) - log_fact(nf - y) + (y - m) * libm::log(s);
-        if av <= lf {
-            return y as u64;
+        if us >= 0.07 && v <= v_r {
+            return ki;
+        }
+        let k = ki as f64;
+        let lhs = libm::log(v * alpha / (a / (us * us) + b));
+        let d = libm::fabs(k - m);
+        if d < squeeze_below {
+            // |log f(k)/f(m) - t| <= rho (BTPE's squeeze, step 5.2)
+            let rho = (d * inv_npq) * ((d * (d / 3.0 + 0.625) + 0.1666666666666) * inv_npq + 0.5);
+            let t = -d * d * 0.5 * inv_npq;
+            if lhs < t - rho {
+                return ki;
+            }
+            if lhs > t + rho {
+                continue;
+            }
+        }
+        let (lr, cm) = *slow.get_or_insert_with(|| {
+            let lr = libm::log(r / q);
+            // (m + 1/2) log((m + 1) q / (r (n - m + 1))) + fc(m) + fc(n - m) + (n + 1) log(n - m + 1)
+            let cm = (m + 0.5) * libm::log(q * (m + 1.0) / (r * (nf - m + 1.0)))
+                + stirling_tail(m)
+                + stirling_tail(nf - m)
+                + (nf + 1.0) * libm::log(nf - m + 1.0);
+            (lr, cm)
+        });
+        // log f(k)/f(m) = cm - (n + 1) log(n - k + 1) + (k + 1/2) log(r/q (n - k + 1) / (k + 1))
+        //                 - fc(k) - fc(n - k)
+        let nk1 = nf - k + 1.0;
+        let rhs = cm - (nf + 1.0) * libm::log(nk1) + (k + 0.5) * (lr + libm::log(nk1 / (k + 1.0)))
+            - stirling_tail(k)
+            - stirling_tail(nf - k);
+        if lhs <= rhs {
+            return ki;
         }
     }
 }
