@@ -307,12 +307,7 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
         (b, tables.join().expect("null tables thread"))
     });
     let (whole, credits) = std::thread::scope(|sc| {
-        let pops = sc.spawn(|| {
-            (
-                population(u32::MAX, "(whole file)", ledger.invoices.as_slice(), opts),
-                population(u32::MAX, "(credit notes)", ledger.credit_notes.as_slice(), opts),
-            )
-        });
+        let pops = sc.spawn(|| whole_file_and_credits(ledger, opts));
         if let Some(c) = cal.as_mut() {
             let inputs = calibration_inputs(&suppliers, &counts);
             let ns: Vec<u64> = counts.iter().map(|c| c.iter().sum()).collect();
@@ -385,14 +380,22 @@ pub fn finish_screen(
     counts: &[Vec<u64>],
     cal: Option<&mut Calibrator>,
 ) -> ScreenReport {
-    let whole = population(u32::MAX, "(whole file)", ledger.invoices.as_slice(), opts);
-    let credits = population(u32::MAX, "(credit notes)", ledger.credit_notes.as_slice(), opts);
+    let (whole, credits) = whole_file_and_credits(ledger, opts);
     finish_screen_parts(ledger, info, min_amount, opts, suppliers, counts, cal, whole, credits)
 }
 
-/// [`finish_screen`] with the whole file's and the credit notes' results already made.
+/// The whole file's and the credit notes' results (their batteries).
+pub fn whole_file_and_credits(ledger: &Ledger, opts: &ScreenOptions) -> (SupplierResult, SupplierResult) {
+    (
+        population(u32::MAX, "(whole file)", ledger.invoices.as_slice(), opts),
+        population(u32::MAX, "(credit notes)", ledger.credit_notes.as_slice(), opts),
+    )
+}
+
+/// [`finish_screen`] with the whole file's and the credit notes' results already made
+/// ([`whole_file_and_credits`]).
 #[allow(clippy::too_many_arguments)]
-fn finish_screen_parts(
+pub fn finish_screen_parts(
     ledger: &Ledger,
     info: &IntakeInfo,
     min_amount: Amount,

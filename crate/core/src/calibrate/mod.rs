@@ -548,14 +548,26 @@ fn table_cost(n: u64) -> u64 {
 /// Split table sizes into `parts` lists of about equal simulation cost (largest first, each to
 /// the least loaded list; ties to the lower list), so any order of `ns` gives the same split.
 pub fn split_sizes(ns: &[u64], parts: usize) -> Vec<Vec<u64>> {
-    let parts = parts.max(1);
+    split_sizes_by(ns, &vec![1; parts.max(1)])
+}
+
+/// As [`split_sizes`], with part i taking a share of the cost proportional to `weights[i]`
+/// (e.g. a Worker that starts earlier takes more): each size, largest first, goes to the part
+/// whose load after taking it, divided by its weight, is least (ties to the lower part).
+pub fn split_sizes_by(ns: &[u64], weights: &[u64]) -> Vec<Vec<u64>> {
+    let parts = weights.len().max(1);
+    let w = |i: usize| weights.get(i).copied().unwrap_or(1).max(1) as u128;
     let mut order: Vec<u64> = ns.to_vec();
     order.sort_unstable_by(|a, b| table_cost(*b).cmp(&table_cost(*a)).then(b.cmp(a)));
     let mut out = vec![Vec::new(); parts];
     let mut load = vec![0u64; parts];
     for n in order {
-        let i = (0..parts).min_by_key(|&i| (load[i], i)).unwrap_or(0);
-        load[i] += table_cost(n);
+        let c = table_cost(n);
+        // compare (load_i + c) / w_i across parts without division: cross-multiplied
+        let i = (0..parts)
+            .min_by(|&a, &b| ((load[a] + c) as u128 * w(b)).cmp(&((load[b] + c) as u128 * w(a))).then(a.cmp(&b)))
+            .unwrap_or(0);
+        load[i] += c;
         out[i].push(n);
     }
     out
