@@ -102,6 +102,7 @@ function startHelper() {
     w.onmessage = (ev) => {
       const m = ev.data;
       if ('ready' in m) { h.ready = m.ready; resolve(m.ready || fail()); return; }
+      if (m.ms !== undefined) h.lastMs = m.ms;
       if (h.job) { const j = h.job; h.job = null; j(m.ok ? (m.tables || m.powers) : null); }
       if (!m.ok) fail();
     };
@@ -121,23 +122,17 @@ function stopHelper() {
   if (h.job) { const j = h.job; h.job = null; j(null); }
 }
 
-// The helper's tables at plan.theirs, or null (helper failed or gone).
-async function helperTables(h, plan) {
-  if (!(await h.started) || helper !== h) return null;
-  return new Promise((resolve) => {
-    h.job = resolve;
-    h.worker.postMessage({ cmd: 'tables', ns: plan.theirs, sims: plan.sims, seed: plan.seed });
-  });
+// A job for the helper: its answer (tables or power results), or null (helper failed or
+// gone). When the helper is ready the message is posted at once, before this Worker goes on
+// with its own long synchronous work (an await first would hold the message back until then).
+function helperJob(h, msg, transfer) {
+  const send = () => new Promise((resolve) => { h.job = resolve; h.worker.postMessage(msg, transfer || []); });
+  if (h.ready && helper === h) return send();
+  return h.started.then((ok) => (ok && helper === h ? send() : null));
 }
-
-// The helper's power results for share (from session.powerPlan), or null.
-async function helperPowers(h, share) {
-  if (!(await h.started) || helper !== h) return null;
-  return new Promise((resolve) => {
-    h.job = resolve;
-    h.worker.postMessage({ cmd: 'power', options: share.options, ns: share.ns, tables: share.tables, inputs: share.inputs }, [share.ns.buffer, share.tables.buffer, share.inputs.buffer]);
-  });
-}
+const helperTables = (h, plan) => helperJob(h, { cmd: 'tables', ns: plan.theirs, sims: plan.sims, seed: plan.seed });
+const helperPowers = (h, share) => helperJob(h, { cmd: 'power', options: share.options, ns: share.ns, tables: share.tables, inputs: share.inputs },
+  [share.ns.buffer, share.tables.buffer, share.inputs.buffer]);
 
 // Screen with the null tables split over this Worker and the helper, then the power work
 // (power against wholly fabricated amounts, power curves) split the same way. Returns
@@ -148,9 +143,10 @@ let keepTables = true;
 async function screenSplit(settings, cancellable) {
   const t0 = performance.now();
   const plan = session.screenPlan(settings);
-  const t1 = performance.now();
   const h = plan.theirs.length && helperWanted ? startHelper() : null;
-  const theirs = h ? helperTables(h, plan) : null;
+  const theirs = h ? helperTables(h, plan) : null; // the helper simulates while the batteries run here
+  session.screenBatteries();
+  const t1 = performance.now();
   const stop = () => { session.screenAbort(); stopHelper(); if (helperWanted) startHelper(); return null; };
   const simulate = async (ns) => {
     for (const n of ns) {
@@ -177,7 +173,10 @@ async function screenSplit(settings, cancellable) {
   // lacks), half here, a few per call so that a Cancel gets in. Every result depends only on
   // the options, the tables and the supplier: the same numbers as one Worker.
   const pp = session.powerPlan(new Float64Array(plan.theirs), !!(tables && helper === h && h.ready));
+  const tp = performance.now();
   const powers = pp.theirs ? helperPowers(h, pp.theirs) : null;
+  if (powers) session.screenWhole(); // the whole file's battery here while the helper works
+  const tw = performance.now();
   for (;;) {
     const left = session.powerStep(8);
     if (!left) break;
@@ -195,7 +194,7 @@ async function screenSplit(settings, cancellable) {
   const screen = session.screenFinish();
   const t4 = performance.now();
   return { screen, workers: tables ? 2 : 1, powerWorkers: theirPowers ? 2 : 1,
-    timing: { batteries: t1 - t0, tables: t2 - t1, power: t3 - t2, finish: t4 - t3, mine: plan.mine.length, theirs: plan.theirs.length, powerTheirs: pp.theirs ? pp.theirs.count : 0 } };
+    timing: { batteries: t1 - t0, tables: t2 - t1, power: t3 - t2, finish: t4 - t3, mine: plan.mine.length, theirs: plan.theirs.length, powerTheirs: pp.theirs ? pp.theirs.count : 0, helperPowerMs: h ? h.lastMs : null, planMs: tp - t2, wholeMs: tw - tp } };
 }
 
 // A zero-delay yield to the event loop, so a Cancel message gets in between replications.
@@ -255,8 +254,9 @@ const handlers = {
   },
   // The helper's second job: its share of the power work, with the other Worker's tables.
   async power({ options, ns, tables, inputs }) {
+    const t0 = performance.now();
     const r = wasm_bindgen.powerShare(options, ns, tables, inputs);
-    self.postMessage({ ok: true, powers: r }, [r.buffer]);
+    self.postMessage({ ok: true, powers: r, ms: performance.now() - t0 }, [r.buffer]);
   },
   async exportSuppliers({ id, fileName }) { post({ id, ok: true, value: session.suppliersCsv(fileName) }); },
   async exportPull({ id, items, fileName }) { post({ id, ok: true, value: session.pullCsv(items, fileName) }); },

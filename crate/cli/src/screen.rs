@@ -82,8 +82,23 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
             return Ok(0);
         }
     }
-    let res = read_ledger(file, opts)?;
-    let rep = report::screen(&res.ledger, &res.info, min, &sopts);
+    // The null tables almost every screen reads (the power-curve checkpoints) are simulated on
+    // a second thread while this one reads the file; the same tables as later (seeded by size).
+    let cal = sopts.calibration.as_ref().map(|c| digitdrift_core::calibrate::Calibrator::new(c.clone()));
+    let (res, cal) = std::thread::scope(|sc| {
+        let ahead = sc.spawn(move || {
+            let mut cal = cal;
+            if let Some(c) = cal.as_mut() {
+                let likely = c.likely_tables();
+                c.prepare(&likely, 1);
+            }
+            cal
+        });
+        let res = read_ledger(file, opts);
+        (res, ahead.join().expect("null tables thread"))
+    });
+    let res = res?;
+    let rep = report::screen_with(&res.ledger, &res.info, min, &sopts, cal);
     if json {
         crate::common::print_json(&rep)?;
     } else {

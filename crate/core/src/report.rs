@@ -169,8 +169,13 @@ pub fn calibration_tables(cal: &Calibrator, suppliers: &[SupplierResult], counts
 
 /// The invoice counts at which the overview's limit curves are drawn.
 fn limit_curve_sizes(suppliers: &[SupplierResult]) -> Vec<u64> {
-    let nmax = suppliers.iter().map(|s| s.invoices).max().unwrap_or(100).max(100);
-    let nmin = suppliers.iter().map(|s| s.invoices).filter(|&n| n > 0).min().unwrap_or(10).clamp(10, 100);
+    limit_curve_sizes_of(&suppliers.iter().map(|s| s.invoices).collect::<Vec<_>>())
+}
+
+/// [`limit_curve_sizes`] from the suppliers' invoice counts.
+fn limit_curve_sizes_of(invoices: &[u64]) -> Vec<u64> {
+    let nmax = invoices.iter().copied().max().unwrap_or(100).max(100);
+    let nmin = invoices.iter().copied().filter(|&n| n > 0).min().unwrap_or(10).clamp(10, 100);
     let mut ns: Vec<u64> = Vec::new();
     let (l0, l1) = ((nmin as f64).ln(), ((nmax as f64) * 1.5).ln());
     for k in 0..=24 {
@@ -254,9 +259,65 @@ fn rank_key(s: &SupplierResult) -> f64 {
 }
 
 pub fn screen(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions) -> ScreenReport {
-    let (suppliers, counts) = supplier_batteries(ledger, opts);
-    let mut cal = opts.calibration.as_ref().map(|c| Calibrator::new(c.clone()));
-    finish_screen(ledger, info, min_amount, opts, suppliers, &counts, cal.as_mut())
+    let cal = opts.calibration.as_ref().map(|c| Calibrator::new(c.clone()));
+    screen_with(ledger, info, min_amount, opts, cal)
+}
+
+/// The null-table sizes a screen of `ledger` will read that `cal` lacks, from one quick pass
+/// over the invoices (each supplier's count of amounts with first-two digits, as its battery
+/// counts them), before any battery: so that they can be simulated beside the batteries. A
+/// size missed here is simulated when read, with the same numbers.
+pub fn likely_screen_tables(cal: &Calibrator, ledger: &Ledger) -> Vec<u64> {
+    let k = ledger.suppliers.len();
+    let (mut digits, mut invoices) = (vec![0u64; k], vec![0u64; k]);
+    for inv in &ledger.invoices {
+        let s = inv.supplier as usize;
+        invoices[s] += 1;
+        digits[s] += inv.amount.abs().leading_digits(3).is_some() as u64;
+    }
+    let ns: Vec<u64> = (0..k).filter(|&s| invoices[s] > 0).map(|s| digits[s]).collect();
+    let sizes: Vec<u64> = invoices.into_iter().filter(|&n| n > 0).collect();
+    let mut need = cal.ledger_missing(&ns);
+    need.extend(cal.missing_tables(&limit_curve_sizes_of(&sizes)));
+    need.sort_unstable();
+    need.dedup();
+    need
+}
+
+/// As [`screen`], with a calibrator that may hold null tables already (e.g. simulated while
+/// the file was read). Natively the work is spread over two threads in two rounds, each pairing
+/// a memory-hungry part with one that needs next to none, so that memory stays within the
+/// per-row budget: the supplier batteries beside the null tables, then the whole file's and
+/// the credit notes' batteries beside the power work. Every number is the same as on one
+/// thread (tables and power results are seeded by their own size and path).
+pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions, mut cal: Option<Calibrator>) -> ScreenReport {
+    if cfg!(target_arch = "wasm32") {
+        let (suppliers, counts) = supplier_batteries(ledger, opts);
+        return finish_screen(ledger, info, min_amount, opts, suppliers, &counts, cal.as_mut());
+    }
+    let need = cal.as_ref().map(|c| likely_screen_tables(c, ledger)).unwrap_or_default();
+    let ((suppliers, counts), mut cal) = std::thread::scope(|sc| {
+        let tables = sc.spawn(move || {
+            if let Some(c) = cal.as_mut() {
+                c.prepare(&need, 1);
+            }
+            cal
+        });
+        let b = supplier_batteries(ledger, opts);
+        (b, tables.join().expect("null tables thread"))
+    });
+    let (whole, credits) = std::thread::scope(|sc| {
+        let pops = sc.spawn(|| whole_file_and_credits(ledger, opts));
+        if let Some(c) = cal.as_mut() {
+            let inputs = calibration_inputs(&suppliers, &counts);
+            let ns: Vec<u64> = counts.iter().map(|c| c.iter().sum()).collect();
+            let missing = c.ledger_missing(&ns);
+            c.prepare(&missing, 1);
+            c.powers(&inputs, 1);
+        }
+        pops.join().expect("whole-file battery thread")
+    });
+    finish_screen_parts(ledger, info, min_amount, opts, suppliers, &counts, cal.as_mut(), whole, credits)
 }
 
 /// The first half of [`screen`]: every supplier's battery (suppliers with invoices, in id
@@ -315,9 +376,35 @@ pub fn finish_screen(
     info: &IntakeInfo,
     min_amount: Amount,
     opts: &ScreenOptions,
+    suppliers: Vec<SupplierResult>,
+    counts: &[Vec<u64>],
+    cal: Option<&mut Calibrator>,
+) -> ScreenReport {
+    let (whole, credits) = whole_file_and_credits(ledger, opts);
+    finish_screen_parts(ledger, info, min_amount, opts, suppliers, counts, cal, whole, credits)
+}
+
+/// The whole file's and the credit notes' results (their batteries).
+pub fn whole_file_and_credits(ledger: &Ledger, opts: &ScreenOptions) -> (SupplierResult, SupplierResult) {
+    (
+        population(u32::MAX, "(whole file)", ledger.invoices.as_slice(), opts),
+        population(u32::MAX, "(credit notes)", ledger.credit_notes.as_slice(), opts),
+    )
+}
+
+/// [`finish_screen`] with the whole file's and the credit notes' results already made
+/// ([`whole_file_and_credits`]).
+#[allow(clippy::too_many_arguments)]
+pub fn finish_screen_parts(
+    ledger: &Ledger,
+    info: &IntakeInfo,
+    min_amount: Amount,
+    opts: &ScreenOptions,
     mut suppliers: Vec<SupplierResult>,
     counts: &[Vec<u64>],
     cal: Option<&mut Calibrator>,
+    whole: SupplierResult,
+    credits: SupplierResult,
 ) -> ScreenReport {
     let calibration = cal.map(|c| calibrate_list_with(c, &mut suppliers, counts));
     rank(&mut suppliers);
@@ -329,8 +416,8 @@ pub fn finish_screen(
             min_amount,
             approval_limits: opts.battery.approval_limits.clone(),
         },
-        whole_file: population(u32::MAX, "(whole file)", ledger.invoices.as_slice(), opts),
-        credit_notes: population(u32::MAX, "(credit notes)", ledger.credit_notes.as_slice(), opts),
+        whole_file: whole,
+        credit_notes: credits,
         suppliers,
         calibration,
         caution: CAUTION,

@@ -201,6 +201,15 @@ fn tables_split_over_threads_give_the_same_numbers() {
     assert_eq!(all, want);
     let cost = |v: &Vec<u64>| v.iter().map(|&n| n.min(6000) + 100).sum::<u64>();
     assert!(cost(&parts[0]).abs_diff(cost(&parts[1])) <= 6100, "{parts:?}");
+    // weighted 2 : 3 (the page's helper Worker, which starts earlier, takes 3/5): every size
+    // once, and each part's cost within one table's cost of its share
+    let many: Vec<u64> = (20..100).chain([100, 133, 178, 237, 316, 422, 562, 750, 1000, 1778, 3162, 5623, 10_000]).collect();
+    let w = digitdrift_core::calibrate::split_sizes_by(&many, &[2, 3]);
+    let mut all: Vec<u64> = w.concat();
+    all.sort_unstable();
+    assert_eq!(all, many);
+    let total = (cost(&w[0]) + cost(&w[1])) as f64;
+    assert!((cost(&w[0]) as f64 - 0.4 * total).abs() <= 6100.0, "{} of {total}", cost(&w[0]));
 
     let inputs = honest_inputs(&cat, 8, &[12, 40, 40, 250, 1800, 9000]);
     let o = CalibrationOptions { sims: 1000, power_sims: 60, ..Default::default() };

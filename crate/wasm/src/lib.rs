@@ -101,7 +101,13 @@ struct PendingScreen {
     /// (`powerStep`), the costliest first.
     inputs: Vec<SupplierInput>,
     mine: Vec<usize>,
+    /// The whole file's and the credit notes' results, when made ahead (`screenWhole`).
+    whole: Option<(report::SupplierResult, report::SupplierResult)>,
 }
+
+/// The power work is dealt in turn: one supplier in SHARE to this Worker (which makes the whole
+/// file's battery meanwhile), the rest to the helper; measured balanced in bench/speed.mjs --page.
+const SHARE: usize = 5;
 
 fn sizes(ns: &[f64]) -> Vec<u64> {
     ns.iter().map(|&n| n as u64).collect()
@@ -294,16 +300,16 @@ impl Session {
         v
     }
 
-    /// The first half of a screen split over two Workers: runs the batteries and returns the
-    /// null tables the calibration will read, split by simulation cost:
-    /// `{mine, theirs, sims, seed}` (`mine` for `prepareTables` here, `theirs` for `nullTables`
-    /// in the other Worker; both empty when calibration is off). Then `screenFinish`.
+    /// The first step of a screen split over two Workers: returns the null tables the
+    /// calibration will read (from one quick pass over the ledger, before any battery), split by
+    /// simulation cost: `{mine, theirs, sims, seed}` (`mine` for `prepareTables` here, `theirs`
+    /// for `nullTables` in the other Worker; both empty when calibration is off). Then
+    /// `screenBatteries` (while the other Worker simulates), ..., `screenFinish`.
     #[wasm_bindgen(js_name = screenPlan)]
     pub fn screen_plan(&mut self, settings: JsValue) -> Result<JsValue, JsValue> {
         self.pending = None;
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         let opts = screen_options(settings)?;
-        let (suppliers, counts) = report::supplier_batteries(&r.ledger, &opts);
         let mut cal = opts.calibration.as_ref().map(|c| Calibrator::new(c.clone()));
         if let Some(c) = cal.as_mut() {
             let (seed, sims) = (c.options().seed, c.options().sims);
@@ -315,14 +321,27 @@ impl Session {
         }
         let (parts, sims, seed) = match &cal {
             Some(c) => {
-                let need = report::calibration_tables(c, &suppliers, &counts);
-                (digitdrift_core::calibrate::split_sizes(&need, 2), c.options().sims, c.options().seed)
+                // the helper starts on its share while the batteries run here: it takes 3/5
+                // of the simulation cost (measured balanced in bench/speed.mjs --page)
+                let need = report::likely_screen_tables(c, &r.ledger);
+                (digitdrift_core::calibrate::split_sizes_by(&need, &[2, 3]), c.options().sims, c.options().seed)
             }
             None => (vec![Vec::new(), Vec::new()], 0, 0),
         };
-        let inputs = report::calibration_inputs(&suppliers, &counts);
-        self.pending = Some(PendingScreen { opts, suppliers, counts, cal, inputs, mine: Vec::new() });
+        self.pending = Some(PendingScreen { opts, suppliers: Vec::new(), counts: Vec::new(), cal, inputs: Vec::new(), mine: Vec::new(), whole: None });
         to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "sims": sims, "seed": seed}))
+    }
+
+    /// Every supplier's battery for the planned screen (`screenPlan` first).
+    #[wasm_bindgen(js_name = screenBatteries)]
+    pub fn screen_batteries(&mut self) -> Result<(), JsValue> {
+        let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
+        let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
+        let (suppliers, counts) = report::supplier_batteries(&r.ledger, &p.opts);
+        p.inputs = report::calibration_inputs(&suppliers, &counts);
+        p.suppliers = suppliers;
+        p.counts = counts;
+        Ok(())
     }
 
     /// Simulate the pending screen's null tables at `ns` here (one call per table lets the
@@ -349,8 +368,9 @@ impl Session {
         Ok(())
     }
 
-    /// After the null tables: split the pending screen's power work in two (suppliers by size,
-    /// the costliest first, dealt in turn). Returns `{theirs: {options, ns, tables, inputs}}`
+    /// After the null tables: split the pending screen's power work (suppliers by size, the
+    /// costliest first, dealt in turn: one in SHARE here, where the whole file's battery is made
+    /// meanwhile, the others to the other Worker). Returns `{theirs: {options, ns, tables, inputs}}`
     /// for `powerShare` in the other Worker (`ns`/`tables`: every null table held here but those
     /// at `their_ns`, which that Worker simulated; `inputs`: its suppliers, flat), or
     /// `{theirs: null}` when calibration is off or there is too little to share. This Worker's
@@ -367,8 +387,10 @@ impl Session {
             p.mine = order;
             return to_js(&serde_json::json!({"theirs": null}));
         }
-        p.mine = order.iter().copied().step_by(2).collect();
-        let theirs: Vec<&SupplierInput> = order.iter().skip(1).step_by(2).map(|&i| &p.inputs[i]).collect();
+        // this Worker also makes the whole file's battery meanwhile: it takes one supplier in
+        // SHARE, the helper the others
+        p.mine = order.iter().copied().step_by(SHARE).collect();
+        let theirs: Vec<&SupplierInput> = order.iter().enumerate().filter(|(j, _)| j % SHARE != 0).map(|(_, &i)| &p.inputs[i]).collect();
         let skip = sizes(their_ns);
         let tables = c.take_tables();
         let mut flat = Vec::new();
@@ -393,6 +415,16 @@ impl Session {
         Ok(out.into())
     }
 
+    /// The whole file's and the credit notes' batteries of the planned screen, made now (while
+    /// the other Worker does power work) instead of in `screenFinish`.
+    #[wasm_bindgen(js_name = screenWhole)]
+    pub fn screen_whole(&mut self) -> Result<(), JsValue> {
+        let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
+        let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
+        p.whole = Some(report::whole_file_and_credits(&r.ledger, &p.opts));
+        Ok(())
+    }
+
     /// The next `count` suppliers of this Worker's power share; returns how many are left.
     #[wasm_bindgen(js_name = powerStep)]
     pub fn power_step(&mut self, count: u32) -> Result<u32, JsValue> {
@@ -413,7 +445,7 @@ impl Session {
         let mut order: Vec<usize> = (0..p.inputs.len()).collect();
         order.sort_by_key(|&i| std::cmp::Reverse(p.inputs[i].first_two_counts.iter().sum::<u64>()));
         let mut at = 0;
-        for &i in order.iter().skip(1).step_by(2) {
+        for &i in order.iter().enumerate().filter(|(j, _)| j % SHARE != 0).map(|(_, i)| i) {
             let r = PowerResult::read_flat(flat, &mut at).ok_or_else(|| err("power results too short"))?;
             c.insert_power(&p.inputs[i], r);
         }
@@ -430,7 +462,11 @@ impl Session {
         let p = self.pending.take().ok_or_else(|| err("no screen planned"))?;
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         let mut cal = p.cal;
-        let rep = report::finish_screen(&r.ledger, &r.info, self.min_amount, &p.opts, p.suppliers, &p.counts, cal.as_mut());
+        let (whole, credits) = match p.whole {
+            Some(w) => w,
+            None => report::whole_file_and_credits(&r.ledger, &p.opts),
+        };
+        let rep = report::finish_screen_parts(&r.ledger, &r.info, self.min_amount, &p.opts, p.suppliers, &p.counts, cal.as_mut(), whole, credits);
         if let (Some(c), true) = (cal.as_mut(), self.keep_tables) {
             self.tables = (c.options().seed, c.options().sims, c.take_tables());
         }
