@@ -131,8 +131,9 @@ for (const file of argv) {
   const heap = await page.evaluate(() => (performance.memory ? performance.memory.usedJSHeapSize : 0));
   const rows = await page.evaluate(() => window.digitdrift.report.rows);
   const wasmMem = await page.evaluate(() => window.digitdrift.wasmMemoryBytes || 0);
+  const timing = await page.evaluate(() => window.digitdrift.workerTiming || null);
   const mb = statSync(file).size / 1e6;
-  console.log(JSON.stringify({ file, mb, rows_read: rows.read, rows_analysed: rows.analysed, browser_seconds: wall, browser_mb_per_s: mb / wall, page_js_heap_mb: heap / 1e6, renderer_peak_rss_mb: rendererPeakMb(), worker_wasm_memory_mb: wasmMem / 1048576 }));
+  console.log(JSON.stringify({ file, mb, rows_read: rows.read, rows_analysed: rows.analysed, browser_seconds: wall, browser_mb_per_s: mb / wall, page_js_heap_mb: heap / 1e6, renderer_peak_rss_mb: rendererPeakMb(), worker_wasm_memory_mb: wasmMem / 1048576, worker_timing_ms: timing }));
   await context.close();
 }
 await browser.close();

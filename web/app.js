@@ -155,6 +155,7 @@
       state.sha256 = res.sha256;
       state.size = res.size;
       state.wasmMemoryBytes = res.wasmMemoryBytes; // the Worker's wasm linear memory after the screen (its peak: it never shrinks); read by bench/browser.mjs
+      state.workerTiming = Object.assign({ ms: res.ms }, res.timing); // the Worker's phases (ms), read by bench/browser.mjs
       state.pull = new Map(); state.notes = {}; updatePullCount();
       $('replay-body').dataset.ready = ''; $('supplier-body').dataset.id = '';
       if (!res.intake.ok) {

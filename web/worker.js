@@ -61,6 +61,7 @@ async function openLedger(id, blob, name, options, settings) {
     post({ progress: true, id, done, total, rows: session.rowsSoFar() });
   }
   const intake = session.finish();
+  const intakeMs = performance.now() - t0;
   if (ahead) {
     const t = await ahead;
     if (t) session.holdTables(new Float64Array(likely.ns), t, likely.sims, likely.seed);
@@ -68,6 +69,7 @@ async function openLedger(id, blob, name, options, settings) {
   if (!intake.ok) { post({ id, ok: true, value: { name, intake } }); return; }
   post({ progress: true, id, done, total, rows: intake.rows.read, stage: 'screening' });
   const res = await screenSplit(settings || {}, true);
+  if (res) res.timing.intakeMs = intakeMs;
   if (!res) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
   const ms = performance.now() - t0;
   post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, powerWorkers: res.powerWorkers, timing: res.timing, ms, sha256: session.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
