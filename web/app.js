@@ -761,7 +761,7 @@
       // dashed level line carries the last simulated point on to the supplier's own size.
       const beyond = d.invoices > last.invoices && last.power >= 0.95 ? [{ label: 'not simulated further (already caught ≥ 95 %)', points: Array.from({ length: 17 }, (_, i) => [last.invoices * Math.pow(d.invoices / last.invoices, i / 16), last.power]), dashed: true }] : [];
       wasm_bindgen.drawScatter(powerCanvas, { title: 'How many invoices a verdict needs', log_x: true, scale: dpr, as_line: true, x_label: 'invoices (log scale)', y_label: 'chance of detection',
-        y_min: 0, y_max: 1.02, points: cal.power_curve.map((p) => ({ x: p.invoices, y: p.power })), curves: beyond,
+        y_min: 0, y_max: 1.02, points: cal.power_curve.map((p) => ({ x: p.invoices, y: p.power })), curves: beyond, legend_lower: true,
         h_lines: [[state.report.calibration.power, 'target power']], v_lines: [[d.invoices, 'now']] });
       powerCanvas.dataset.drawn = 'yes';
     }

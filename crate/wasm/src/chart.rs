@@ -2,6 +2,7 @@
 //! returns the plot area's pixel geometry so the page can map a click to a bar or a point.
 
 use plotters::coord::Shift;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
 use plotters::prelude::*;
 use plotters_canvas::CanvasBackend;
 use serde::{Deserialize, Serialize};
@@ -214,6 +215,9 @@ pub struct ScatterSpec {
     /// Vertical markers: (x, label).
     #[serde(default)]
     pub v_lines: Vec<(f64, String)>,
+    /// Put the curves' legend in the lower right corner (default: upper right).
+    #[serde(default)]
+    pub legend_lower: bool,
     /// x values are days since 1970-01-01: label as dates.
     #[serde(default)]
     pub x_dates: bool,
@@ -323,9 +327,15 @@ pub fn draw_scatter(canvas: HtmlCanvasElement, spec: JsValue) -> Result<JsValue,
         let style = ShapeStyle { color: BAR_FLAG2.to_rgba(), filled: false, stroke_width: px(1.5).max(1) as u32 };
         let xv = tx(*x);
         chart.draw_series(LineSeries::new(vec![(xv, y0), (xv, y1)], style)).map_err(js_err)?;
-        chart
-            .draw_series(std::iter::once(Text::new(label.clone(), (xv, y1 - (y1 - y0) * 0.02), ("sans-serif", px(11.0)).into_font().color(&BAR_FLAG2))))
-            .map_err(js_err)?;
+        // near the right edge the label goes to the left of its line, so that it is not cut off
+        let right = (xv - x0) / (x1 - x0) > 0.85;
+        let font = ("sans-serif", px(11.0)).into_font().color(&BAR_FLAG2);
+        let (at, font) = if right {
+            ((xv - (x1 - x0) * 0.01, y1 - (y1 - y0) * 0.02), font.pos(Pos::new(HPos::Right, VPos::Top)))
+        } else {
+            ((xv, y1 - (y1 - y0) * 0.02), font)
+        };
+        chart.draw_series(std::iter::once(Text::new(label.clone(), at, font))).map_err(js_err)?;
     }
     if s.as_line {
         let style = ShapeStyle { color: BAR.to_rgba(), filled: false, stroke_width: px(2.0).max(1) as u32 };
@@ -343,7 +353,7 @@ pub fn draw_scatter(canvas: HtmlCanvasElement, spec: JsValue) -> Result<JsValue,
     if !s.curves.is_empty() {
         chart
             .configure_series_labels()
-            .position(SeriesLabelPosition::UpperRight)
+            .position(if s.legend_lower { SeriesLabelPosition::LowerRight } else { SeriesLabelPosition::UpperRight })
             .background_style(WHITE.mix(0.85))
             .border_style(GRID)
             .label_font(("sans-serif", px(11.0)).into_font().color(&INK))
