@@ -200,31 +200,29 @@ impl RunsAcc {
                 }
             }
             local.sort_unstable();
-            let mut a = 0;
-            while a < local.len() {
-                let mut b = a + 1;
-                while b < local.len() && local[b].0 == local[a].0 && local[b].1 == local[a].1 {
-                    b += 1;
-                }
-                if b - a >= 2 {
-                    self.sad_g += 1;
-                    self.sad_i += (b - a) as u64;
-                    let amt = Amount(key as i64);
-                    prune_groups(&mut self.groups, opts.max_duplicate_groups);
-                    self.groups.push(DuplicateGroup {
-                        kind: "same_amount_date",
-                        supplier: local[a].0,
-                        amount: amt,
-                        date: Some(local[a].1),
-                        count: (b - a) as u64,
-                        extra_amount: Amount(amt.0.saturating_mul((b - a - 1) as i64)),
-                        invoices: local[a..b].iter().map(|x| x.2 as usize).collect(),
-                    });
-                }
-                a = b;
+            for g in repeated_runs(&local) {
+                self.sad_g += 1;
+                self.sad_i += g.len() as u64;
+                let amt = Amount(key as i64);
+                prune_groups(&mut self.groups, opts.max_duplicate_groups);
+                self.groups.push(DuplicateGroup {
+                    kind: "same_amount_date",
+                    supplier: g[0].0,
+                    amount: amt,
+                    date: Some(g[0].1),
+                    count: g.len() as u64,
+                    extra_amount: Amount(amt.0.saturating_mul((g.len() - 1) as i64)),
+                    invoices: g.iter().map(|x| x.2 as usize).collect(),
+                });
             }
         }
     }
+}
+
+/// The runs of two or more entries with equal (supplier, key) in a sorted list of
+/// (supplier, key, index): the candidate duplicate groups.
+fn repeated_runs<K: PartialEq>(v: &[(u32, K, u32)]) -> impl Iterator<Item = &[(u32, K, u32)]> {
+    v.chunk_by(|x, y| x.0 == y.0 && x.1 == y.1).filter(|g| g.len() >= 2)
 }
 
 /// The amount checks from the runs (fed every window) and passes over the population.
@@ -380,31 +378,23 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
                     (inv.supplier, inv.invoice_hash, idx)
                 }));
                 local2.sort_unstable();
-                let mut a = 0;
-                while a < local2.len() {
-                    let mut b = a + 1;
-                    while b < local2.len() && local2[b].0 == local2[a].0 && local2[b].1 == local2[a].1 {
-                        b += 1;
-                    }
-                    if b - a >= 2 {
-                        sn_g += 1;
-                        sn_i += (b - a) as u64;
-                        let idx: Vec<usize> = local2[a..b].iter().map(|x| x.2 as usize).collect();
-                        let amts: Vec<i64> = idx.iter().map(|&x| invoices.at(x).amount.0.saturating_abs()).collect();
-                        let max = *amts.iter().max().unwrap();
-                        let total: i64 = amts.iter().fold(0i64, |s, &x| s.saturating_add(x));
-                        prune_groups(&mut groups, opts.max_duplicate_groups);
-                        groups.push(DuplicateGroup {
-                            kind: "same_number",
-                            supplier: local2[a].0,
-                            amount: Amount(max),
-                            date: None,
-                            count: (b - a) as u64,
-                            extra_amount: Amount(total.saturating_sub(amts[0])),
-                            invoices: idx,
-                        });
-                    }
-                    a = b;
+                for g in repeated_runs(&local2) {
+                    sn_g += 1;
+                    sn_i += g.len() as u64;
+                    let idx: Vec<usize> = g.iter().map(|x| x.2 as usize).collect();
+                    let amts: Vec<i64> = idx.iter().map(|&x| invoices.at(x).amount.0.saturating_abs()).collect();
+                    let max = *amts.iter().max().unwrap();
+                    let total: i64 = amts.iter().fold(0i64, |s, &x| s.saturating_add(x));
+                    prune_groups(&mut groups, opts.max_duplicate_groups);
+                    groups.push(DuplicateGroup {
+                        kind: "same_number",
+                        supplier: g[0].0,
+                        amount: Amount(max),
+                        date: None,
+                        count: g.len() as u64,
+                        extra_amount: Amount(total.saturating_sub(amts[0])),
+                        invoices: idx,
+                    });
                 }
             }
             i = j;
