@@ -76,6 +76,13 @@ async function pageMode(file) {
       const m = await call('rescreen', { settings: {} });
       runs.push(Object.assign(pick(m, { screen: m.value }), { wanted: on ? 2 : 1 }));
     }
+    // calibration alone over 2 Workers: power work one in two, nothing else meanwhile
+    await call('calibrationOnly', { on: true });
+    for (let k = 0; k < 2; k++) {
+      const m = await call('rescreen', { settings: {} });
+      runs.push(Object.assign(pick(m, { screen: m.value }), { wanted: 2, calibrationOnly: true }));
+    }
+    await call('calibrationOnly', { on: false });
     worker.terminate();
     return runs;
   });
@@ -89,7 +96,7 @@ async function pageMode(file) {
   row('native, 2 threads', native.batteries_s, native.tables_2_s, native.power_2_s, native.finish_2_s);
   for (const [i, r] of web.entries()) {
     if (i > 0 && (r.workers !== r.wanted || r.powerWorkers !== r.wanted)) throw new Error(`run ${i} used ${r.workers}/${r.powerWorkers} Workers, asked for ${r.wanted}`);
-    row(i === 0 ? `chromium open: ${r.timing.mine}+${r.timing.theirs} tables left` : `chromium cold, ${r.workers} Worker${r.workers > 1 ? 's' : ''} (${r.timing.mine}+${r.timing.theirs})`, r.timing.batteries / 1000, r.timing.tables / 1000, r.timing.power / 1000, r.timing.finish / 1000);
+    row(i === 0 ? `chromium open: ${r.timing.mine}+${r.timing.theirs} tables left` : r.calibrationOnly ? 'chromium cold, calibration alone, 2 W' : `chromium cold, ${r.workers} Worker${r.workers > 1 ? 's' : ''} (${r.timing.mine}+${r.timing.theirs})`, r.timing.batteries / 1000, r.timing.tables / 1000, r.timing.power / 1000, r.timing.finish / 1000);
   }
   console.log(`chromium open: ${(web[0].ms / 1000).toFixed(3)} s from the file to the results (reading the file, with the helper Worker simulating the power checkpoints' tables meanwhile, then the screen)`);
   console.log(`calibrated p-values, corrected p-values and invoices needed identical native / every Chromium run: ${same}`);

@@ -142,6 +142,7 @@ const helperPowers = (h, share) => helperJob(h, { cmd: 'power', options: share.o
 // (or when it fails) this Worker simulates every table, one per call, Cancel between.
 let helperWanted = true;
 let keepTables = true;
+let calibrationOnly = false; // benchmark: nothing but calibration while the helper does power work
 async function screenSplit(settings, cancellable) {
   const t0 = performance.now();
   const plan = session.screenPlan(settings);
@@ -174,10 +175,10 @@ async function screenSplit(settings, cancellable) {
   // Power work: half the suppliers to the helper (with the tables simulated here, which it
   // lacks), half here, a few per call so that a Cancel gets in. Every result depends only on
   // the options, the tables and the supplier: the same numbers as one Worker.
-  const pp = session.powerPlan(new Float64Array(plan.theirs), !!(tables && helper === h && h.ready));
+  const pp = session.powerPlan(new Float64Array(plan.theirs), !!(tables && helper === h && h.ready), calibrationOnly ? 2 : undefined);
   const tp = performance.now();
   const powers = pp.theirs ? helperPowers(h, pp.theirs) : null;
-  if (powers) session.screenWhole(); // the whole file's battery here while the helper works
+  if (powers && !calibrationOnly) session.screenWhole(); // the whole file's battery here while the helper works
   const tw = performance.now();
   for (;;) {
     const left = session.powerStep(8);
@@ -249,6 +250,9 @@ const handlers = {
   async useHelper({ id, on }) { helperWanted = !!on; if (!on) stopHelper(); else startHelper(); post({ id, ok: true, value: helperWanted }); },
   // Benchmark: keep null tables between screens (true, the default) or time every screen cold.
   async keepTables({ id, on }) { keepTables = !!on; if (session) session.keepTables(keepTables); post({ id, ok: true, value: keepTables }); },
+  // Benchmark: power work split one in two, the whole file's battery left to screenFinish, so
+  // that the tables and power phases time calibration alone.
+  async calibrationOnly({ id, on }) { calibrationOnly = !!on; post({ id, ok: true, value: calibrationOnly }); },
   // The helper's one job: null tables for another Worker's screen (see screenSplit).
   async tables({ ns, sims, seed }) {
     const t = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);

@@ -103,10 +103,13 @@ struct PendingScreen {
     mine: Vec<usize>,
     /// The whole file's and the credit notes' results, when made ahead (`screenWhole`).
     whole: Option<(report::SupplierResult, report::SupplierResult)>,
+    /// One supplier in `every` of the power work is this Worker's (`powerPlan`).
+    every: usize,
 }
 
 /// The power work is dealt in turn: one supplier in SHARE to this Worker (which makes the whole
 /// file's battery meanwhile), the rest to the helper; measured balanced in bench/speed.mjs --page.
+/// (The benchmark's calibration-only screens deal one in two: nothing else runs meanwhile.)
 const SHARE: usize = 5;
 
 fn sizes(ns: &[f64]) -> Vec<u64> {
@@ -328,7 +331,7 @@ impl Session {
             }
             None => (vec![Vec::new(), Vec::new()], 0, 0),
         };
-        self.pending = Some(PendingScreen { opts, suppliers: Vec::new(), counts: Vec::new(), cal, inputs: Vec::new(), mine: Vec::new(), whole: None });
+        self.pending = Some(PendingScreen { opts, suppliers: Vec::new(), counts: Vec::new(), cal, inputs: Vec::new(), mine: Vec::new(), whole: None, every: SHARE });
         to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "sims": sims, "seed": seed}))
     }
 
@@ -376,8 +379,10 @@ impl Session {
     /// `{theirs: null}` when calibration is off or there is too little to share. This Worker's
     /// share is done by `powerStep`.
     #[wasm_bindgen(js_name = powerPlan)]
-    pub fn power_plan(&mut self, their_ns: &[f64], share: bool) -> Result<JsValue, JsValue> {
+    pub fn power_plan(&mut self, their_ns: &[f64], share: bool, every: Option<u32>) -> Result<JsValue, JsValue> {
+        let every = every.map_or(SHARE, |e| e.max(2) as usize);
         let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
+        p.every = every;
         let Some(c) = p.cal.as_mut() else {
             return to_js(&serde_json::json!({"theirs": null}));
         };
@@ -389,8 +394,8 @@ impl Session {
         }
         // this Worker also makes the whole file's battery meanwhile: it takes one supplier in
         // SHARE, the helper the others
-        p.mine = order.iter().copied().step_by(SHARE).collect();
-        let theirs: Vec<&SupplierInput> = order.iter().enumerate().filter(|(j, _)| j % SHARE != 0).map(|(_, &i)| &p.inputs[i]).collect();
+        p.mine = order.iter().copied().step_by(every).collect();
+        let theirs: Vec<&SupplierInput> = order.iter().enumerate().filter(|(j, _)| j % every != 0).map(|(_, &i)| &p.inputs[i]).collect();
         let skip = sizes(their_ns);
         let tables = c.take_tables();
         let mut flat = Vec::new();
@@ -445,7 +450,7 @@ impl Session {
         let mut order: Vec<usize> = (0..p.inputs.len()).collect();
         order.sort_by_key(|&i| std::cmp::Reverse(p.inputs[i].first_two_counts.iter().sum::<u64>()));
         let mut at = 0;
-        for &i in order.iter().enumerate().filter(|(j, _)| j % SHARE != 0).map(|(_, i)| i) {
+        for &i in order.iter().enumerate().filter(|(j, _)| j % p.every != 0).map(|(_, i)| i) {
             let r = PowerResult::read_flat(flat, &mut at).ok_or_else(|| err("power results too short"))?;
             c.insert_power(&p.inputs[i], r);
         }
