@@ -280,38 +280,23 @@ impl Moments {
         CountStats { mad: (self.sum_e + sad) / (nf * self.k as f64), chi_square: self.sum_e - 2.0 * nf + chi, ks: ks / nf, max_z: mz }
     }
 
-    /// Sum over bins of |c_i - e_i|, c_i = count(i), with the lane order of [`LANES`].
-    #[inline(always)]
-    fn sum_abs_dev(&self, count: impl Fn(usize) -> u64) -> f64 {
-        let mut lane = [0.0f64; LANES];
-        for (j, ee) in self.e.chunks_exact(LANES).enumerate() {
-            for l in 0..LANES {
-                let i = j * LANES + l;
-                let c = if i < self.k { count(i) as i64 as f64 } else { 0.0 };
-                lane[l] += libm::fabs(c - ee[l]);
-            }
-        }
-        (lane[0] + lane[1]) + (lane[2] + lane[3])
-    }
-
-    /// MAD = mean_i |c_i / n - p_i| (Nigrini 2012, as in [`crate::stats::mad`]).
+    /// MAD = mean_i |c_i / n - p_i| (Nigrini 2012, as in [`crate::stats::mad`]), summed in
+    /// the lane order of [`LANES`].
     #[inline]
     pub fn mad<C: Count>(&self, c: &[C]) -> f64 {
         if self.n == 0 {
             return 0.0;
         }
         let c = &c[..self.k];
-        self.sum_abs_dev(|i| c[i].to_u64()) / (self.n as f64 * self.k as f64)
-    }
-
-    /// MAD of the counts h + f (both of length >= the bins).
-    #[inline]
-    pub fn mad_sum<C: Count>(&self, h: &[u32], f: &[C]) -> f64 {
-        if self.n == 0 {
-            return 0.0;
+        let mut lane = [0.0f64; LANES];
+        for (j, ee) in self.e.chunks_exact(LANES).enumerate() {
+            for l in 0..LANES {
+                let i = j * LANES + l;
+                let x = if i < self.k { c[i].to_u64() as i64 as f64 } else { 0.0 };
+                lane[l] += libm::fabs(x - ee[l]);
+            }
         }
-        let (h, f) = (&h[..self.k], &f[..self.k]);
-        self.sum_abs_dev(|i| h[i] as u64 + f[i].to_u64()) / (self.n as f64 * self.k as f64)
+        ((lane[0] + lane[1]) + (lane[2] + lane[3])) / (self.n as f64 * self.k as f64)
     }
 
     /// All four statistics.
@@ -615,6 +600,11 @@ fn next_checkpoint(g: u32) -> u32 {
     }
 }
 
+/// The power checkpoints' sizes in order (10, 18, 32, ..., 10,000, 31,623, ...) up to `max`.
+fn checkpoints(max: u64) -> impl Iterator<Item = u64> {
+    std::iter::successors(Some(GRID_PER_DECADE), |&g| Some(next_checkpoint(g))).map(grid_n).take_while(move |&n| n <= max)
+}
+
 /// First-two digit probabilities of a continuous uniform on [a, b] (0 < a <= b): the overlap of
 /// [d·10^k, (d+1)·10^k) with [a, b] summed over decades k, divided by b - a. For a == b all mass
 /// is on the first-two digits of a.
@@ -648,7 +638,11 @@ pub fn uniform_first_two(a: f64, b: f64) -> [f64; BINS] {
 
 /// (1 - s)·Benford + s·uniform on [a, b].
 pub fn even_spread_mixture(a: f64, b: f64, share: f64) -> [f64; BINS] {
-    let u = uniform_first_two(a, b);
+    mix_with_benford(&uniform_first_two(a, b), share)
+}
+
+/// (1 - share)·Benford + share·`u` over the 90 first-two bins.
+fn mix_with_benford(u: &[f64; BINS], share: f64) -> [f64; BINS] {
     let p = benford::first_two();
     let s = share.clamp(0.0, 1.0);
     std::array::from_fn(|i| (1.0 - s) * p[i] + s * u[i])
@@ -896,24 +890,8 @@ impl Calibrator {
     /// Power of the calibrated MAD test at exactly n against `model` (probabilities over the 90
     /// bins), from `power_sims` samples of the stream (seed, tag, n).
     pub fn power_at(&mut self, model: &[f64], n: u64, tag: u64) -> f64 {
-        if n == 0 {
-            return 0.0;
-        }
-        let crit = self.critical(Statistic::Mad, n, self.alpha());
-        let cat = Categorical::new(model);
-        let mom = Moments::new(n, self.benford.probs());
-        let mut rng = DetRng::stream(self.opts.seed, &[tag, n]);
         let sims = self.opts.power_sims.max(1);
-        let mut hits = 0u32;
-        let mut c = [0u64; BINS];
-        for _ in 0..sims {
-            c.iter_mut().for_each(|x| *x = 0);
-            cat.add(&mut rng, n, &mut c);
-            if mom.mad(&c) > crit {
-                hits += 1;
-            }
-        }
-        hits as f64 / sims as f64
+        self.power_looks(model, n, tag, &[(sims, -1, sims as i64 + 1)]).0
     }
 
     /// Power curve of the calibrated MAD test against `model` at the checkpoints
@@ -930,12 +908,7 @@ impl Calibrator {
         let mut rngs: Vec<DetRng> = (0..sims as u64).map(|i| DetRng::stream(self.opts.seed, &[TAG_POWER, i])).collect();
         let mut out = Vec::new();
         let mut prev = 0u64;
-        let mut g = GRID_PER_DECADE; // n = 10
-        loop {
-            let n = grid_n(g);
-            if n > self.opts.max_invoices {
-                break;
-            }
+        for n in checkpoints(self.opts.max_invoices) {
             let crit = self.critical(Statistic::Mad, n, alpha);
             let mom = Moments::new(n, self.benford.probs());
             let mut hits = 0usize;
@@ -951,7 +924,6 @@ impl Calibrator {
             if power >= target.max(0.95) {
                 break;
             }
-            g = next_checkpoint(g);
         }
         out
     }
@@ -1021,12 +993,8 @@ impl Calibrator {
     /// detection by then), those not cached yet. Another thread or Worker can simulate them
     /// while the ledger is still being read.
     pub fn likely_tables(&self) -> Vec<u64> {
-        let mut ns = Vec::new();
-        let mut g = GRID_PER_DECADE;
-        while g <= COARSE_FROM_DECADE * GRID_PER_DECADE && grid_n(g) <= self.opts.max_invoices {
-            ns.push(grid_n(g));
-            g = next_checkpoint(g);
-        }
+        let top = grid_n(COARSE_FROM_DECADE * GRID_PER_DECADE);
+        let ns: Vec<u64> = checkpoints(self.opts.max_invoices.min(top)).collect();
         self.missing_tables(&ns)
     }
 
@@ -1049,13 +1017,13 @@ impl Calibrator {
     fn ledger_sizes(&self, ns: &[u64]) -> Vec<u64> {
         let mut ns = ns.to_vec();
         let nmax = ns.iter().copied().max().unwrap_or(0);
-        let mut g = GRID_PER_DECADE;
-        while nmax > 0 && grid_n(g) <= self.opts.max_invoices {
-            ns.push(grid_n(g));
-            if grid_n(g) >= nmax {
-                break;
+        if nmax > 0 {
+            for n in checkpoints(self.opts.max_invoices) {
+                ns.push(n);
+                if n >= nmax {
+                    break;
+                }
             }
-            g = next_checkpoint(g);
         }
         ns
     }
@@ -1100,11 +1068,7 @@ impl Calibrator {
 /// digits, or to Benford when both are zero.
 fn even_spread(amount_min: Amount, amount_max: Amount, share: f64) -> [f64; BINS] {
     match even_spread_uniform(amount_min, amount_max) {
-        Some(u) => {
-            let p = benford::first_two();
-            let s = share.clamp(0.0, 1.0);
-            std::array::from_fn(|i| (1.0 - s) * p[i] + s * u[i])
-        }
+        Some(u) => mix_with_benford(&u, share),
         None => {
             let p = benford::first_two();
             std::array::from_fn(|i| p[i])

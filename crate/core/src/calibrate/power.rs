@@ -46,8 +46,8 @@ pub const SEQ_DELTA: f64 = 0.001;
 pub(super) struct HonestPaths {
     share: f64,
     sims: usize,
-    /// Grid indices of the checkpoints simulated so far.
-    grid: Vec<u32>,
+    /// Sizes of the checkpoints simulated so far.
+    sizes: Vec<u64>,
     /// Per checkpoint: fabricated invoices F of every path.
     fab: Vec<Vec<u32>>,
     /// Per checkpoint: every path's honest counts minus the Benford expectation at the
@@ -63,7 +63,7 @@ impl HonestPaths {
         HonestPaths {
             share: share.clamp(0.0, 1.0),
             sims,
-            grid: Vec::new(),
+            sizes: Vec::new(),
             fab: Vec::new(),
             honest: Vec::new(),
             rngs: (0..sims as u64).map(|i| DetRng::stream(seed, &[TAG_HONEST, i])).collect(),
@@ -74,14 +74,10 @@ impl HonestPaths {
 
     /// Simulate up to checkpoint number j (0: n = 10).
     fn extend_to(&mut self, j: usize, benford: &Categorical) {
-        while self.grid.len() <= j {
-            let g = match self.grid.last() {
-                Some(&g) => next_checkpoint(g),
-                None => GRID_PER_DECADE,
-            };
-            let prev = self.grid.last().map_or(0, |&g| grid_n(g));
-            let dm = grid_n(g) - prev;
-            let m = grid_n(g) as f64;
+        while self.sizes.len() <= j {
+            let size = checkpoints(u64::MAX).nth(self.sizes.len()).expect("checkpoints go on");
+            let dm = size - self.sizes.last().copied().unwrap_or(0);
+            let m = size as f64;
             let e: Vec<f64> = benford.probs().iter().map(|&p| m * p).collect();
             let mut fab = Vec::with_capacity(self.sims);
             let mut honest = Vec::with_capacity(self.sims * PADDED);
@@ -94,7 +90,7 @@ impl HonestPaths {
                 honest.extend(self.cur_h[i].iter().zip(&e).map(|(&h, &x)| h as f64 - x));
                 honest.resize(honest.len() + (PADDED - BINS), 0.0);
             }
-            self.grid.push(g);
+            self.sizes.push(size);
             self.fab.push(fab);
             self.honest.push(honest);
         }
@@ -149,6 +145,18 @@ impl Calibrator {
     /// against `target` (see the module text): (hits / samples, samples), samples from the
     /// stream (seed, tag, n), at most `power_sims`.
     pub fn power_sequential(&mut self, model: &[f64], n: u64, tag: u64, target: f64) -> (f64, u32) {
+        let sims = self.opts.power_sims.max(1);
+        if self.seq_bounds.as_ref().map(|b| b.0) != Some(target.to_bits()) {
+            self.seq_bounds = Some((target.to_bits(), sequential_bounds(target, sims)));
+        }
+        let bounds = self.seq_bounds.as_ref().expect("bounds").1.clone(); // about 20 looks
+        self.power_looks(model, n, tag, &bounds)
+    }
+
+    /// Samples of size n from `model`, from the stream (seed, tag, n), tested with the
+    /// calibrated MAD; at each look (k, lo, hi) after k samples, stop when the hits are <= lo or
+    /// >= hi. Returns (hits / samples, samples).
+    pub(super) fn power_looks(&mut self, model: &[f64], n: u64, tag: u64, looks: &[(u32, i64, i64)]) -> (f64, u32) {
         if n == 0 {
             return (0.0, 0);
         }
@@ -156,15 +164,10 @@ impl Calibrator {
         let cat = Categorical::new(model);
         let mom = Moments::new(n, self.benford.probs());
         let mut rng = DetRng::stream(self.opts.seed, &[tag, n]);
-        let sims = self.opts.power_sims.max(1);
-        if self.seq_bounds.as_ref().map(|b| b.0) != Some(target.to_bits()) {
-            self.seq_bounds = Some((target.to_bits(), sequential_bounds(target, sims)));
-        }
-        let bounds = &self.seq_bounds.as_ref().expect("bounds").1;
         let mut hits = 0i64;
         let mut done = 0u32;
         let mut c = [0u64; BINS]; // a supplier's n may exceed u32 counts
-        for &(k, lo, hi) in bounds {
+        for &(k, lo, hi) in looks {
             while done < k {
                 c.iter_mut().for_each(|x| *x = 0);
                 cat.add(&mut rng, n, &mut c);
@@ -192,13 +195,7 @@ impl Calibrator {
         let mut fab = vec![[0u32; PADDED]; sims]; // counts <= max_invoices
         let mut rngs: Vec<DetRng> = (0..sims as u64).map(|i| DetRng::stream(self.opts.seed, &[TAG_POWER, i])).collect();
         let mut out = Vec::new();
-        let mut j = 0usize;
-        let mut g = GRID_PER_DECADE;
-        loop {
-            let n = grid_n(g);
-            if n > self.opts.max_invoices {
-                break;
-            }
+        for (j, n) in checkpoints(self.opts.max_invoices).enumerate() {
             let crit = self.critical(Statistic::Mad, n, alpha);
             let hp = self.honest.as_mut().expect("honest paths");
             hp.extend_to(j, &self.benford);
@@ -216,8 +213,6 @@ impl Calibrator {
             if power >= target.max(0.95) {
                 break;
             }
-            g = next_checkpoint(g);
-            j += 1;
         }
         out
     }
