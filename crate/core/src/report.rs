@@ -160,8 +160,16 @@ pub fn calibrate_list(suppliers: &mut [SupplierResult], counts: &[Vec<u64>], cop
 /// simulate some of them and [`Calibrator::insert_table`] put them in first.
 pub fn calibration_tables(cal: &Calibrator, suppliers: &[SupplierResult], counts: &[Vec<u64>]) -> Vec<u64> {
     let ns: Vec<u64> = counts.iter().map(|c| c.iter().sum()).collect();
-    let mut need = cal.ledger_missing(&ns);
-    need.extend(cal.missing_tables(&limit_curve_sizes(suppliers)));
+    let invoices: Vec<u64> = suppliers.iter().map(|s| s.invoices).collect();
+    tables_for(cal, &ns, &invoices)
+}
+
+/// The null tables `cal` lacks for suppliers with `ns` first-two digit counts and `invoices`
+/// invoices: their own and the power checkpoints' (`Calibrator::ledger_missing`) and the limit
+/// curves', ascending and distinct.
+fn tables_for(cal: &Calibrator, ns: &[u64], invoices: &[u64]) -> Vec<u64> {
+    let mut need = cal.ledger_missing(ns);
+    need.extend(cal.missing_tables(&limit_curve_sizes_of(invoices)));
     need.sort_unstable();
     need.dedup();
     need
@@ -277,11 +285,7 @@ pub fn likely_screen_tables(cal: &Calibrator, ledger: &Ledger) -> Vec<u64> {
     }
     let ns: Vec<u64> = (0..k).filter(|&s| invoices[s] > 0).map(|s| digits[s]).collect();
     let sizes: Vec<u64> = invoices.into_iter().filter(|&n| n > 0).collect();
-    let mut need = cal.ledger_missing(&ns);
-    need.extend(cal.missing_tables(&limit_curve_sizes_of(&sizes)));
-    need.sort_unstable();
-    need.dedup();
-    need
+    tables_for(cal, &ns, &sizes)
 }
 
 /// As [`screen`], with a calibrator that may hold null tables already (e.g. simulated while

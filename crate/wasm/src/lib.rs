@@ -103,8 +103,8 @@ struct PendingScreen {
     mine: Vec<usize>,
     /// The whole file's and the credit notes' results, when made ahead (`screenWhole`).
     whole: Option<(report::SupplierResult, report::SupplierResult)>,
-    /// One supplier in `every` of the power work is this Worker's (`powerPlan`).
-    every: usize,
+    /// The suppliers whose power work the other Worker does (`powerPlan`, `insertPowers`).
+    theirs: Vec<usize>,
 }
 
 /// The power work is dealt in turn: one supplier in SHARE to this Worker (which makes the whole
@@ -136,13 +136,8 @@ fn screen_summary(rep: &report::ScreenReport) -> Result<JsValue, JsValue> {
 #[wasm_bindgen(js_name = nullTables)]
 pub fn null_tables(ns: &[f64], sims: u32, seed: f64) -> Vec<f64> {
     let cat = Categorical::new(&digitdrift_core::benford::first_two());
-    let mut out = Vec::with_capacity(ns.len() * 4 * sims as usize);
     let tables = NullTable::simulate_many(&cat, &sizes(ns), sims, seed as u64, 1);
-    for t in &tables {
-        for c in t.columns() {
-            out.extend_from_slice(c);
-        }
-    }
+    let out = tables_to_flat(tables.iter());
     HELPER_TABLES.with(|h| {
         let mut h = h.borrow_mut();
         match h.as_mut() {
@@ -177,6 +172,17 @@ pub fn likely_tables(settings: JsValue) -> Result<JsValue, JsValue> {
 thread_local! {
     /// The helper Worker's last `nullTables` (sims, seed, tables), for `powerShare`.
     static HELPER_TABLES: std::cell::RefCell<Option<(u32, u64, Vec<NullTable>)>> = const { std::cell::RefCell::new(None) };
+}
+
+/// Tables in their flat form: per table its four sorted columns, one after the other.
+fn tables_to_flat<'a>(tables: impl Iterator<Item = &'a NullTable>) -> Vec<f64> {
+    let mut out = Vec::new();
+    for t in tables {
+        for c in t.columns() {
+            out.extend_from_slice(c);
+        }
+    }
+    out
 }
 
 /// The tables at `ns` from their flat form (four columns of `sims` values per size).
@@ -331,7 +337,7 @@ impl Session {
             }
             None => (vec![Vec::new(), Vec::new()], 0, 0),
         };
-        self.pending = Some(PendingScreen { opts, suppliers: Vec::new(), counts: Vec::new(), cal, inputs: Vec::new(), mine: Vec::new(), whole: None, every: SHARE });
+        self.pending = Some(PendingScreen { opts, suppliers: Vec::new(), counts: Vec::new(), cal, inputs: Vec::new(), mine: Vec::new(), whole: None, theirs: Vec::new() });
         to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "sims": sims, "seed": seed}))
     }
 
@@ -382,7 +388,6 @@ impl Session {
     pub fn power_plan(&mut self, their_ns: &[f64], share: bool, every: Option<u32>) -> Result<JsValue, JsValue> {
         let every = every.map_or(SHARE, |e| e.max(2) as usize);
         let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
-        p.every = every;
         let Some(c) = p.cal.as_mut() else {
             return to_js(&serde_json::json!({"theirs": null}));
         };
@@ -390,32 +395,26 @@ impl Session {
         order.sort_by_key(|&i| std::cmp::Reverse(p.inputs[i].first_two_counts.iter().sum::<u64>()));
         if !share || order.len() < 4 {
             p.mine = order;
+            p.theirs.clear();
             return to_js(&serde_json::json!({"theirs": null}));
         }
         // this Worker also makes the whole file's battery meanwhile: it takes one supplier in
-        // SHARE, the helper the others
-        p.mine = order.iter().copied().step_by(every).collect();
-        let theirs: Vec<&SupplierInput> = order.iter().enumerate().filter(|(j, _)| j % every != 0).map(|(_, &i)| &p.inputs[i]).collect();
+        // `every`, the helper the others
+        let (mine, theirs): (Vec<(usize, usize)>, Vec<(usize, usize)>) = order.into_iter().enumerate().partition(|(j, _)| j % every == 0);
+        p.mine = mine.into_iter().map(|(_, i)| i).collect();
+        p.theirs = theirs.into_iter().map(|(_, i)| i).collect();
+        let their_inputs: Vec<&SupplierInput> = p.theirs.iter().map(|&i| &p.inputs[i]).collect();
         let skip = sizes(their_ns);
-        let tables = c.take_tables();
-        let mut flat = Vec::new();
-        let mut have = Vec::new();
-        for t in tables.iter().filter(|t| !skip.contains(&t.n)) {
-            have.push(t.n as f64);
-            for col in t.columns() {
-                flat.extend_from_slice(col);
-            }
-        }
-        for t in tables {
-            c.insert_table(t);
-        }
+        let send: Vec<&NullTable> = c.tables().filter(|t| !skip.contains(&t.n)).collect();
+        let have: Vec<f64> = send.iter().map(|t| t.n as f64).collect();
+        let flat = tables_to_flat(send.into_iter());
         let out = js_sys::Object::new();
         let th = js_sys::Object::new();
         js_sys::Reflect::set(&th, &"options".into(), &to_js(c.options())?)?;
         js_sys::Reflect::set(&th, &"ns".into(), &js_sys::Float64Array::from(&have[..]))?;
         js_sys::Reflect::set(&th, &"tables".into(), &js_sys::Float64Array::from(&flat[..]))?;
-        js_sys::Reflect::set(&th, &"inputs".into(), &js_sys::Float64Array::from(&inputs_to_flat(&theirs)[..]))?;
-        js_sys::Reflect::set(&th, &"count".into(), &JsValue::from(theirs.len() as u32))?;
+        js_sys::Reflect::set(&th, &"inputs".into(), &js_sys::Float64Array::from(&inputs_to_flat(&their_inputs)[..]))?;
+        js_sys::Reflect::set(&th, &"count".into(), &JsValue::from(their_inputs.len() as u32))?;
         js_sys::Reflect::set(&out, &"theirs".into(), &th)?;
         Ok(out.into())
     }
@@ -447,10 +446,8 @@ impl Session {
     pub fn insert_powers(&mut self, flat: &[f64]) -> Result<(), JsValue> {
         let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
         let Some(c) = p.cal.as_mut() else { return Ok(()) };
-        let mut order: Vec<usize> = (0..p.inputs.len()).collect();
-        order.sort_by_key(|&i| std::cmp::Reverse(p.inputs[i].first_two_counts.iter().sum::<u64>()));
         let mut at = 0;
-        for &i in order.iter().enumerate().filter(|(j, _)| j % p.every != 0).map(|(_, i)| i) {
+        for &i in &p.theirs {
             let r = PowerResult::read_flat(flat, &mut at).ok_or_else(|| err("power results too short"))?;
             c.insert_power(&p.inputs[i], r);
         }

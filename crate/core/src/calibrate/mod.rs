@@ -769,6 +769,11 @@ impl Calibrator {
         self.tables.get(&n)
     }
 
+    /// Every cached table, in no particular order.
+    pub fn tables(&self) -> impl Iterator<Item = &NullTable> {
+        self.tables.values()
+    }
+
     /// Number of cached tables.
     pub fn cached_tables(&self) -> usize {
         self.tables.len()
