@@ -69,8 +69,8 @@ async function openLedger(id, blob, name, options, settings) {
   if (!intake.ok) { post({ id, ok: true, value: { name, intake } }); return; }
   post({ progress: true, id, done, total, rows: intake.rows.read, stage: 'screening' });
   const res = await screenSplit(settings || {}, true);
-  if (res) res.timing.intakeMs = intakeMs;
   if (!res) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
+  res.timing.intakeMs = intakeMs;
   const ms = performance.now() - t0;
   post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, powerWorkers: res.powerWorkers, timing: res.timing, ms, sha256: session.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
 }
@@ -80,12 +80,15 @@ async function openLedger(id, blob, name, options, settings) {
 // equal simulation cost: this Worker simulates one, a helper Worker (this same script, started
 // from this Worker's own blob: URL, sharing its compiled wasm module) the other, which comes
 // back as one transferred Float64Array. Each table is seeded by its own size, so the numbers
-// are those of one Worker. The power work per supplier is then split the same way: the helper
-// gets half the suppliers and this Worker's tables. If the helper cannot start or fails, this
-// Worker does the missing work itself: the same numbers, later.
+// are those of one Worker. The power work per supplier is then split too: the helper takes
+// most suppliers (with this Worker's tables) while this Worker does the rest and the whole
+// file's battery. Jobs carry an id, so an answer always reaches the job that asked, even when
+// an earlier job was left behind (a Cancel while the file was read). If the helper cannot
+// start or fails, this Worker does the missing work itself: the same numbers, later.
 let isHelper = false;
 let wasmModule = null;
-let helper = null; // { worker, ready: boolean, started: Promise<boolean>, job: resolver | null }
+let helper = null; // { worker, ready: boolean, started: Promise<boolean>, jobs: Map(id -> resolver) }
+let jobIds = 0;
 let onCancel = null;
 let helperUrl = null;
 
@@ -93,11 +96,12 @@ function startHelper() {
   if (helper || isHelper || !wasmModule || !helperUrl) return helper;
   let w;
   try { w = new Worker(helperUrl); } catch (e) { return null; }
-  const h = { worker: w, ready: false, job: null };
+  const h = { worker: w, ready: false, jobs: new Map() };
   const fail = () => {
     if (helper === h) helper = null;
     w.terminate();
-    if (h.job) { const j = h.job; h.job = null; j(null); }
+    for (const j of h.jobs.values()) j(null);
+    h.jobs.clear();
     return false;
   };
   h.started = new Promise((resolve) => {
@@ -105,7 +109,9 @@ function startHelper() {
       const m = ev.data;
       if ('ready' in m) { h.ready = m.ready; resolve(m.ready || fail()); return; }
       if (m.ms !== undefined) h.lastMs = m.ms;
-      if (h.job) { const j = h.job; h.job = null; j(m.ok ? (m.tables || m.powers) : null); }
+      const j = h.jobs.get(m.job);
+      h.jobs.delete(m.job);
+      if (j) j(m.ok ? (m.tables || m.powers) : null);
       if (!m.ok) fail();
     };
     w.onerror = (ev) => { ev.preventDefault(); resolve(fail()); };
@@ -121,14 +127,19 @@ function stopHelper() {
   const h = helper;
   helper = null;
   h.worker.terminate();
-  if (h.job) { const j = h.job; h.job = null; j(null); }
+  for (const j of h.jobs.values()) j(null);
+  h.jobs.clear();
 }
 
 // A job for the helper: its answer (tables or power results), or null (helper failed or
 // gone). When the helper is ready the message is posted at once, before this Worker goes on
 // with its own long synchronous work (an await first would hold the message back until then).
 function helperJob(h, msg, transfer) {
-  const send = () => new Promise((resolve) => { h.job = resolve; h.worker.postMessage(msg, transfer || []); });
+  const send = () => new Promise((resolve) => {
+    const job = ++jobIds;
+    h.jobs.set(job, resolve);
+    h.worker.postMessage(Object.assign({ job }, msg), transfer || []);
+  });
   if (h.ready && helper === h) return send();
   return h.started.then((ok) => (ok && helper === h ? send() : null));
 }
@@ -172,9 +183,9 @@ async function screenSplit(settings, cancellable) {
   if (tables) session.insertTables(plan.theirs, tables);
   else if (!(await simulate(plan.theirs))) return stop();
   const t2 = performance.now();
-  // Power work: half the suppliers to the helper (with the tables simulated here, which it
-  // lacks), half here, a few per call so that a Cancel gets in. Every result depends only on
-  // the options, the tables and the supplier: the same numbers as one Worker.
+  // Power work: most suppliers to the helper (with the tables it lacks), the rest here, a few
+  // per call so that a Cancel gets in. Every result depends only on the options, the tables and
+  // the supplier: the same numbers as one Worker.
   const pp = session.powerPlan(new Float64Array(plan.theirs), !!(tables && helper === h && h.ready), calibrationOnly ? 2 : undefined);
   const tp = performance.now();
   const powers = pp.theirs ? helperPowers(h, pp.theirs) : null;
@@ -253,16 +264,16 @@ const handlers = {
   // Benchmark: power work split one in two, the whole file's battery left to screenFinish, so
   // that the tables and power phases time calibration alone.
   async calibrationOnly({ id, on }) { calibrationOnly = !!on; post({ id, ok: true, value: calibrationOnly }); },
-  // The helper's one job: null tables for another Worker's screen (see screenSplit).
-  async tables({ ns, sims, seed }) {
+  // The helper's jobs (see screenSplit): null tables for another Worker's screen, and its
+  // share of the power work with the other Worker's tables.
+  async tables({ job, ns, sims, seed }) {
     const t = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);
-    self.postMessage({ ok: true, tables: t }, [t.buffer]);
+    self.postMessage({ job, ok: true, tables: t }, [t.buffer]);
   },
-  // The helper's second job: its share of the power work, with the other Worker's tables.
-  async power({ options, ns, tables, inputs }) {
+  async power({ job, options, ns, tables, inputs }) {
     const t0 = performance.now();
     const r = wasm_bindgen.powerShare(options, ns, tables, inputs);
-    self.postMessage({ ok: true, powers: r, ms: performance.now() - t0 }, [r.buffer]);
+    self.postMessage({ job, ok: true, powers: r, ms: performance.now() - t0 }, [r.buffer]);
   },
   async exportSuppliers({ id, fileName }) { post({ id, ok: true, value: session.suppliersCsv(fileName) }); },
   async exportPull({ id, items, fileName }) { post({ id, ok: true, value: session.pullCsv(items, fileName) }); },

@@ -99,3 +99,36 @@ test('a digit-count table from an SQL engine is screened without the ledger', as
   assert.deepEqual(networkRequests(requests), []);
   assert.deepEqual(errors, []);
 });
+
+test('Cancel while a file is read, then another ledger opens with the same numbers as before', async () => {
+  // A 300,000-row invented ledger (about 14 MB): long enough to Cancel mid-way. While it is
+  // read, the helper Worker is busy with null tables for it; the demo ledger opened right after
+  // the Cancel must get its own helper answers (jobs carry ids), not that left-behind one.
+  const dir = mkdtempSync(join(tmpdir(), 'dd-'));
+  const file = join(dir, 'long-ledger.csv');
+  const lines = ['Supplier,Invoice No,Invoice Date,Amount'];
+  let x = 11;
+  const rnd = () => { x = (x * 48271) % 2147483647; return x / 2147483647; };
+  for (let i = 0; i < 300_000; i++) lines.push(`Harrowgate Feed ${i % 40},L${i},2024-0${1 + (i % 9)}-1${i % 10},${Math.pow(10, 1 + 3 * rnd()).toFixed(2)}`);
+  writeFileSync(file, lines.join('\n') + '\n');
+  const { page, requests, errors } = await openPage(browser);
+  const demo = async () => {
+    await page.click('#demo');
+    await page.waitForSelector('body[data-loaded="yes"]', { timeout: 120_000 });
+    return page.evaluate(() => ({ rows: window.digitdrift.report.rows, mc: window.digitdrift.report.suppliers.map((s) => [s.name, s.first_two.mc_p_value, s.invoices_needed]) }));
+  };
+  const reference = await demo();
+  await page.evaluate(() => { delete document.body.dataset.loaded; });
+  await page.click('#nav a[data-view="ledger"]');
+  await page.setInputFiles('#file', file);
+  await page.waitForSelector('#map-go');
+  await page.click('#map-go');
+  await page.waitForSelector('#progress:not([hidden])');
+  await page.click('#cancel');
+  await page.waitForFunction(() => /Cancelled/.test(document.body.textContent));
+  const again = await demo();
+  assert.deepEqual(again, reference);
+  assert.equal(await page.evaluate(() => window.digitdrift.calibrationWorkers), 2);
+  assert.deepEqual(networkRequests(requests), []);
+  assert.deepEqual(errors, []);
+});
