@@ -524,7 +524,7 @@ pub fn sort_f64(v: &mut [f64], scratch: &mut Vec<u64>) {
 pub const TABLE_THREADS: usize = 2;
 
 /// Relative cost of simulating one null table at n: the guide table costs O(n) up to
-/// [`sample::GUIDE_MAX_N`], the binomial chain about as much as the guide at that n; the
+/// [`sample::GUIDE_MAX_N`], the binomial tree about as much as the guide at that n; the
 /// statistics about as much as 100 invoices (rough figures from `benches/calibrate.rs`).
 fn table_cost(n: u64) -> u64 {
     n.min(sample::GUIDE_MAX_N) + 100
