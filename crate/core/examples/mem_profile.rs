@@ -102,9 +102,9 @@ fn main() {
     let (n, c) = (l.invoices.len(), l.credit_notes.len());
     let names: usize = l.suppliers.iter().map(|s| s.name.capacity() + s.key.capacity()).sum();
     let store = (l.invoices.capacity() + l.credit_notes.capacity()) * std::mem::size_of_val(&l.invoices[..1][0]);
-    let (sup, counts) = phase(&mut ph, "supplier_batteries", || report::supplier_batteries(l, &sopts));
+    let b = phase(&mut ph, "supplier_batteries", || report::supplier_batteries(l, &sopts));
     let mut cal = sopts.calibration.as_ref().map(|c| digitdrift_core::calibrate::Calibrator::new(c.clone()));
-    let rep = phase(&mut ph, "finish_screen", || report::finish_screen(l, &res.info, IntakeOptions::default().min_amount, &sopts, sup, &counts, cal.as_mut()));
+    let rep = phase(&mut ph, "finish_screen", || report::finish_screen(l, &res.info, IntakeOptions::default().min_amount, &sopts, b, cal.as_mut()));
     drop(cal);
     // Written as the CLI writes it (streamed; counted, not kept).
     struct Count(usize);

@@ -24,14 +24,15 @@ fn main() {
     let r = it.finish().expect("intake failed");
     let opts = ScreenOptions::default();
     let t = Instant::now();
-    let (suppliers, counts) = report::supplier_batteries(&r.ledger, &opts);
+    let b = report::supplier_batteries(&r.ledger, &opts);
+    let (suppliers, counts) = (&b.suppliers, &b.counts);
     let batteries = t.elapsed().as_secs_f64();
-    let inputs = report::calibration_inputs(&suppliers, &counts);
+    let inputs = report::calibration_inputs(suppliers, counts);
     let mut runs = Vec::new();
     for threads in [1usize, 2] {
         let mut cal = Calibrator::new(CalibrationOptions::default());
         cal.set_threads(threads);
-        let need = report::calibration_tables(&cal, &suppliers, &counts);
+        let need = report::calibration_tables(&cal, suppliers, counts);
         let t = Instant::now();
         cal.prepare(&need, threads);
         let tables = t.elapsed().as_secs_f64();
@@ -39,7 +40,7 @@ fn main() {
         cal.powers(&inputs, threads);
         let powers = t.elapsed().as_secs_f64();
         let t = Instant::now();
-        let rep = report::finish_screen(&r.ledger, &r.info, min, &opts, suppliers.clone(), &counts, Some(&mut cal));
+        let rep = report::finish_screen(&r.ledger, &r.info, min, &opts, b.clone(), Some(&mut cal));
         let finish = t.elapsed().as_secs_f64();
         // per ranked supplier: calibrated p-value, corrected p-value, invoices needed (-1: none)
         let mc: Vec<[f64; 3]> = rep

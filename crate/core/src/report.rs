@@ -2,7 +2,7 @@
 //! battery per supplier, for the whole file and for the credit notes, then (when asked) the
 //! sample-size calibration and the false-alarm control across suppliers.
 
-use crate::battery::{self, Battery, BatteryOptions, Indexed, Members};
+use crate::battery::{self, Battery, BatteryOptions, Duplicates, DuplicatesMerge, Indexed, Members};
 use crate::calibrate::{CalibrationOptions, Calibrator, Correction, SupplierCalibration, SupplierInput, Verdict};
 use crate::intake::IntakeInfo;
 use crate::ledger::{Accounting, Invoice, Ledger};
@@ -102,6 +102,12 @@ pub const CAUTION: &str = "A deviation from Benford's law is a reason to look, n
 /// One population's result: its totals and the battery. `invs`: a slice of invoices, references
 /// or [`Indexed`] members (see [`Members`]).
 pub fn population<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &ScreenOptions) -> SupplierResult {
+    population_with(id, name, invs, opts, None)
+}
+
+/// As [`population`], with the population's duplicate findings known already (see
+/// [`battery::run_with`]).
+pub fn population_with<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &ScreenOptions, known: Option<Duplicates>) -> SupplierResult {
     let mut total = Amount::ZERO;
     let (mut lo, mut hi) = (Amount(i64::MAX), Amount(0));
     let (mut d0, mut d1) = (i32::MAX, i32::MIN);
@@ -128,7 +134,7 @@ pub fn population<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &Scr
         amount_max: hi,
         first_date: date(d0),
         last_date: date(d1),
-        tests: battery::run(invs, &opts.battery),
+        tests: battery::run_with(invs, &opts.battery, known),
         verdict: None,
         invoices_needed: None,
         calibration: None,
@@ -296,11 +302,10 @@ pub fn likely_screen_tables(cal: &Calibrator, ledger: &Ledger) -> Vec<u64> {
 /// thread (tables and power results are seeded by their own size and path).
 pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions, mut cal: Option<Calibrator>) -> ScreenReport {
     if cfg!(target_arch = "wasm32") {
-        let (suppliers, counts) = supplier_batteries(ledger, opts);
-        return finish_screen(ledger, info, min_amount, opts, suppliers, &counts, cal.as_mut());
+        return finish_screen(ledger, info, min_amount, opts, supplier_batteries(ledger, opts), cal.as_mut());
     }
     let need = cal.as_ref().map(|c| likely_screen_tables(c, ledger)).unwrap_or_default();
-    let ((suppliers, counts), mut cal) = std::thread::scope(|sc| {
+    let (Batteries { suppliers, counts, file_duplicates }, mut cal) = std::thread::scope(|sc| {
         let tables = sc.spawn(move || {
             if let Some(c) = cal.as_mut() {
                 c.prepare(&need, 1);
@@ -311,7 +316,7 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
         (b, tables.join().expect("null tables thread"))
     });
     let (whole, credits) = std::thread::scope(|sc| {
-        let pops = sc.spawn(|| whole_file_and_credits(ledger, opts));
+        let pops = sc.spawn(|| whole_file_and_credits(ledger, opts, file_duplicates));
         if let Some(c) = cal.as_mut() {
             let inputs = calibration_inputs(&suppliers, &counts);
             let ns: Vec<u64> = counts.iter().map(|c| c.iter().sum()).collect();
@@ -324,9 +329,19 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
     finish_screen_parts(ledger, info, min_amount, opts, suppliers, &counts, cal.as_mut(), whole, credits)
 }
 
-/// The first half of [`screen`]: every supplier's battery (suppliers with invoices, in id
-/// order) and its first-two digit counts, which calibration reads.
-pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> (Vec<SupplierResult>, Vec<Vec<u64>>) {
+/// Every supplier's battery (suppliers with invoices, in id order), their first-two digit
+/// counts (which calibration reads), and the whole file's duplicate findings merged from
+/// theirs ([`DuplicatesMerge`]; None when the amount checks are off), which
+/// [`whole_file_and_credits`] then need not search again.
+#[derive(Clone)]
+pub struct Batteries {
+    pub suppliers: Vec<SupplierResult>,
+    pub counts: Vec<Vec<u64>>,
+    pub file_duplicates: Option<Duplicates>,
+}
+
+/// The first half of [`screen`]: every supplier's battery ([`Batteries`]).
+pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> Batteries {
     // Memory: the largest supplier first, read through a list of its own invoice indices (or
     // the whole file as a slice when it has every invoice); then the others through one exactly
     // sized index array of theirs (4 bytes per invoice). No list of references is built.
@@ -337,18 +352,24 @@ pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> (Vec<Supplie
     }
     let big = (0..k).max_by_key(|&s| (sizes[s], std::cmp::Reverse(s))).filter(|&s| sizes[s] > 0);
     let mut out: Vec<Option<(SupplierResult, Vec<u64>)>> = (0..k).map(|_| None).collect();
-    fn one<M: Members + ?Sized>(ledger: &Ledger, sid: usize, invs: &M, opts: &ScreenOptions) -> Option<(SupplierResult, Vec<u64>)> {
+    let mut merge = DuplicatesMerge::default();
+    // One supplier's result and counts; its duplicates go to the whole file's, with its member
+    // i at file index `at(i)`.
+    fn one<M: Members + ?Sized>(ledger: &Ledger, sid: usize, invs: &M, at: impl Fn(usize) -> usize, opts: &ScreenOptions, merge: &mut DuplicatesMerge) -> Option<(SupplierResult, Vec<u64>)> {
         let r = population(sid as u32, &ledger.suppliers[sid].name, invs, opts);
         let c = first_two_counts(&r, invs);
+        if let Some(a) = &r.tests.amount_checks {
+            merge.add(&a.duplicates, at, opts.battery.max_duplicate_groups);
+        }
         Some((r, c))
     }
     if let Some(b) = big {
         out[b] = if sizes[b] == ledger.invoices.len() {
-            one(ledger, b, ledger.invoices.as_slice(), opts)
+            one(ledger, b, ledger.invoices.as_slice(), |i| i, opts, &mut merge)
         } else {
             let mut idx: Vec<u32> = Vec::with_capacity(sizes[b]);
             idx.extend((0..ledger.invoices.len() as u32).filter(|&i| ledger.invoices[i as usize].supplier as usize == b));
-            one(ledger, b, &Indexed { all: &ledger.invoices, idx: &idx }, opts)
+            one(ledger, b, &Indexed { all: &ledger.invoices, idx: &idx }, |i| idx[i] as usize, opts, &mut merge)
         };
     }
     let order = ledger.supplier_order_without(big.map(|b| b as u32));
@@ -359,17 +380,19 @@ pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> (Vec<Supplie
     let mut copy: Vec<Invoice> = Vec::with_capacity(small);
     for sid in (0..k).filter(|&s| Some(s) != big && sizes[s] > 0) {
         let idx = order.of(sid);
+        let at = |i: usize| idx[i] as usize;
         out[sid] = if idx.len() <= battery::WINDOW_MIN {
             copy.clear();
             copy.extend(idx.iter().map(|&i| ledger.invoices[i as usize]));
-            one(ledger, sid, copy.as_slice(), opts)
+            one(ledger, sid, copy.as_slice(), at, opts, &mut merge)
         } else {
-            one(ledger, sid, &Indexed { all: &ledger.invoices, idx }, opts)
+            one(ledger, sid, &Indexed { all: &ledger.invoices, idx }, at, opts, &mut merge)
         };
     }
     drop(copy);
     drop(order);
-    out.into_iter().flatten().unzip()
+    let (suppliers, counts) = out.into_iter().flatten().unzip();
+    Batteries { suppliers, counts, file_duplicates: merge.finish(opts.battery.max_duplicate_groups) }
 }
 
 /// The second half of [`screen`]: calibration with `cal` (made from `opts.calibration`, and
@@ -380,18 +403,19 @@ pub fn finish_screen(
     info: &IntakeInfo,
     min_amount: Amount,
     opts: &ScreenOptions,
-    suppliers: Vec<SupplierResult>,
-    counts: &[Vec<u64>],
+    batteries: Batteries,
     cal: Option<&mut Calibrator>,
 ) -> ScreenReport {
-    let (whole, credits) = whole_file_and_credits(ledger, opts);
-    finish_screen_parts(ledger, info, min_amount, opts, suppliers, counts, cal, whole, credits)
+    let Batteries { suppliers, counts, file_duplicates } = batteries;
+    let (whole, credits) = whole_file_and_credits(ledger, opts, file_duplicates);
+    finish_screen_parts(ledger, info, min_amount, opts, suppliers, &counts, cal, whole, credits)
 }
 
-/// The whole file's and the credit notes' results (their batteries).
-pub fn whole_file_and_credits(ledger: &Ledger, opts: &ScreenOptions) -> (SupplierResult, SupplierResult) {
+/// The whole file's and the credit notes' results (their batteries). `file_duplicates`: the
+/// whole file's duplicate findings from [`supplier_batteries`], when made (else searched here).
+pub fn whole_file_and_credits(ledger: &Ledger, opts: &ScreenOptions, file_duplicates: Option<Duplicates>) -> (SupplierResult, SupplierResult) {
     (
-        population(u32::MAX, "(whole file)", ledger.invoices.as_slice(), opts),
+        population_with(u32::MAX, "(whole file)", ledger.invoices.as_slice(), opts, file_duplicates),
         population(u32::MAX, "(credit notes)", ledger.credit_notes.as_slice(), opts),
     )
 }

@@ -130,3 +130,79 @@ fn cluster_below_limit_stands_out_and_smooth_data_does_not() {
     let q = l.expected_share;
     assert!((l.expected - (l.below_band_count + l.above_band_count) as f64 * q / (1.0 - q)).abs() < 1e-6);
 }
+
+/// The whole file's duplicate findings merged from its suppliers' (what the screen does, so the
+/// whole file is not searched twice) equal a search of the whole file itself: counts, the
+/// listed groups and their order, with the list cut short or not, when suppliers share amounts,
+/// dates and numbers with each other (no group may span two suppliers), and for suppliers read
+/// through each of the screen's three paths (the largest, one of more than 65,536 invoices
+/// read in place, small ones copied out). Self-consistency against the direct search.
+#[test]
+fn whole_file_duplicates_merged_from_suppliers_equal_a_direct_search() {
+    use digitdrift_core::ledger::{Ledger, Supplier};
+    use digitdrift_core::report::{self, ScreenOptions};
+    let mut s: u64 = 0x9E37_79B9_7F4A_7C15;
+    let mut next = |m: u64| {
+        s = s
+            .wrapping_mul(6364136223846793005)
+            .wrapping_add(1442695040888963407);
+        (s >> 33) % m
+    };
+    // supplier sizes: two above 65,536 (largest read by its index list, the other in place),
+    // then small ones
+    let sizes = [90_000usize, 70_000, 3000, 500, 40, 1];
+    let mut invoices = Vec::new();
+    for (sid, &n) in sizes.iter().enumerate() {
+        for _ in 0..n {
+            let amount =
+                [1_000_000, 2_500_000, 123_400][next(3) as usize] + 10_000 * next(400) as i64;
+            let date = if next(10) == 0 {
+                NO_DATE
+            } else {
+                19_000 + next(30) as i32
+            };
+            let number = if next(4) == 0 { 0 } else { 1 + next(60_000) };
+            invoices.push((sid as u32, amount, date, number));
+        }
+    }
+    // interleave the suppliers in file order
+    for i in (1..invoices.len()).rev() {
+        invoices.swap(i, next(i as u64 + 1) as usize);
+    }
+    let ledger = Ledger {
+        suppliers: (0..sizes.len())
+            .map(|k| Supplier {
+                name: format!("S{k}"),
+                key: format!("s{k}"),
+            })
+            .collect(),
+        invoices: invoices
+            .iter()
+            .enumerate()
+            .map(|(line, &(sid, a, d, n))| inv_line(a, sid, d, n, line as u64))
+            .collect(),
+        ..Default::default()
+    };
+    for keep in [200usize, 7] {
+        let mut opts = ScreenOptions::default();
+        opts.battery.max_duplicate_groups = keep;
+        let merged = report::supplier_batteries(&ledger, &opts)
+            .file_duplicates
+            .expect("amount checks on");
+        let direct = battery::run(ledger.invoices.as_slice(), &opts.battery)
+            .amount_checks
+            .unwrap()
+            .duplicates;
+        assert!(
+            direct.same_amount_date_groups > 100
+                && direct.same_number_groups > 100
+                && direct.groups_truncated,
+            "{direct:?}"
+        );
+        assert_eq!(merged, direct, "keep {keep}");
+    }
+}
+
+fn inv_line(raw: i64, supplier: u32, date: i32, number: u64, line: u64) -> Invoice {
+    Invoice::new(Amount(raw), number, supplier, date, line)
+}

@@ -103,6 +103,8 @@ struct PendingScreen {
     mine: Vec<usize>,
     /// The whole file's and the credit notes' results, when made ahead (`screenWhole`).
     whole: Option<(report::SupplierResult, report::SupplierResult)>,
+    /// The whole file's duplicate findings, merged from the suppliers' (`screenBatteries`).
+    file_duplicates: Option<digitdrift_core::battery::Duplicates>,
     /// The suppliers whose power work the other Worker does (`powerPlan`, `insertPowers`).
     theirs: Vec<usize>,
 }
@@ -337,7 +339,7 @@ impl Session {
             }
             None => (vec![Vec::new(), Vec::new()], 0, 0),
         };
-        self.pending = Some(PendingScreen { opts, suppliers: Vec::new(), counts: Vec::new(), cal, inputs: Vec::new(), mine: Vec::new(), whole: None, theirs: Vec::new() });
+        self.pending = Some(PendingScreen { opts, suppliers: Vec::new(), counts: Vec::new(), cal, inputs: Vec::new(), mine: Vec::new(), whole: None, theirs: Vec::new(), file_duplicates: None });
         to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "sims": sims, "seed": seed}))
     }
 
@@ -346,10 +348,11 @@ impl Session {
     pub fn screen_batteries(&mut self) -> Result<(), JsValue> {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
-        let (suppliers, counts) = report::supplier_batteries(&r.ledger, &p.opts);
-        p.inputs = report::calibration_inputs(&suppliers, &counts);
-        p.suppliers = suppliers;
-        p.counts = counts;
+        let b = report::supplier_batteries(&r.ledger, &p.opts);
+        p.inputs = report::calibration_inputs(&b.suppliers, &b.counts);
+        p.suppliers = b.suppliers;
+        p.counts = b.counts;
+        p.file_duplicates = b.file_duplicates;
         Ok(())
     }
 
@@ -425,7 +428,7 @@ impl Session {
     pub fn screen_whole(&mut self) -> Result<(), JsValue> {
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
-        p.whole = Some(report::whole_file_and_credits(&r.ledger, &p.opts));
+        p.whole = Some(report::whole_file_and_credits(&r.ledger, &p.opts, p.file_duplicates.take()));
         Ok(())
     }
 
@@ -466,7 +469,7 @@ impl Session {
         let mut cal = p.cal;
         let (whole, credits) = match p.whole {
             Some(w) => w,
-            None => report::whole_file_and_credits(&r.ledger, &p.opts),
+            None => report::whole_file_and_credits(&r.ledger, &p.opts, p.file_duplicates),
         };
         let rep = report::finish_screen_parts(&r.ledger, &r.info, self.min_amount, &p.opts, p.suppliers, &p.counts, cal.as_mut(), whole, credits);
         if let (Some(c), true) = (cal.as_mut(), self.keep_tables) {

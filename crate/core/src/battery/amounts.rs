@@ -162,9 +162,17 @@ pub(crate) struct RunsAcc {
     sad_g: u64,
     sad_i: u64,
     local: Vec<(u32, i32, u32)>,
+    /// The duplicate groups are known already (see [`DuplicatesMerge`]): only the runs.
+    known: bool,
 }
 
 impl RunsAcc {
+    /// `known`: the population's duplicate groups come from [`DuplicatesMerge`], so the runs
+    /// are not grouped by supplier and date here.
+    pub fn new(known: bool) -> RunsAcc {
+        RunsAcc { known, ..RunsAcc::default() }
+    }
+
     pub fn feed<M: Members + ?Sized>(&mut self, invoices: &M, sorted: &Sorted, opts: &BatteryOptions) {
         self.n += sorted.len() as u64;
         let better = |l: usize, k: u64, t: &(usize, u64, Vec<usize>, bool)| l > t.0 || (l == t.0 && k > t.1);
@@ -188,6 +196,9 @@ impl RunsAcc {
                 let (inv, t) = capped((s..s + l).take(opts.max_listed + 1).map(|k| sorted.idx(k) as usize).collect(), opts.max_listed);
                 top.insert(at, (l, key, inv, t));
                 top.truncate(opts.top_amounts);
+            }
+            if self.known {
+                continue;
             }
             // Same supplier, amount and date (dated invoices only).
             let local = &mut self.local;
@@ -226,7 +237,9 @@ fn repeated_runs<K: PartialEq>(v: &[(u32, K, u32)]) -> impl Iterator<Item = &[(u
 }
 
 /// The amount checks from the runs (fed every window) and passes over the population.
-pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, opts: &BatteryOptions) -> AmountChecks {
+/// `known`: the population's duplicates, merged from its suppliers' ([`DuplicatesMerge`]);
+/// the runs were then fed with `RunsAcc::new(true)`.
+pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, opts: &BatteryOptions, known: Option<Duplicates>) -> AmountChecks {
     let RunsAcc { n, distinct, top, mut groups, sad_g, sad_i, .. } = runs;
     let cap = opts.max_listed;
     let (mut sn_g, mut sn_i) = (0u64, 0u64);
@@ -266,7 +279,7 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
         if inv.date == NO_DATE {
             undated += 1;
         }
-        if inv.invoice_hash != 0 {
+        if inv.invoice_hash != 0 && known.is_none() {
             numbered_count += 1;
             let x = mixed(i, inv.invoice_hash, inv.supplier);
             if one_window {
@@ -330,6 +343,9 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
         ],
         reference: ROUND_REFERENCE,
     };
+    if let Some(duplicates) = known {
+        return AmountChecks { n, distinct_amounts: distinct, most_frequent, round, duplicates, limits, note: AMOUNT_NOTE };
+    }
 
     // Same supplier and invoice number. The numbered words sorted in place: equal pairs land in
     // one run (in index order); the rare unequal pairs sharing a mix are told apart exactly
@@ -416,6 +432,61 @@ pub(crate) fn amount_checks<M: Members + ?Sized>(invoices: &M, runs: RunsAcc, op
     };
 
     AmountChecks { n, distinct_amounts: distinct, most_frequent, round, duplicates, limits, note: AMOUNT_NOTE }
+}
+
+/// The duplicate findings of a population that is a disjoint union of others (the whole file,
+/// of its suppliers), from theirs: every group lies within one supplier (same supplier and
+/// amount and date, or same supplier and number), so the counts add up, and the population's
+/// first `max_duplicate_groups` groups in listed order are among its parts' first as many
+/// (a part's members mapped to the population's indices keep their order, and with it the
+/// order of groups of equal extra amount).
+#[derive(Default)]
+pub struct DuplicatesMerge {
+    d: Option<Duplicates>,
+}
+
+impl DuplicatesMerge {
+    /// Add one part's duplicates; `to_whole(i)` is the population index of the part's member i
+    /// (increasing in i).
+    pub fn add(&mut self, part: &Duplicates, to_whole: impl Fn(usize) -> usize, keep: usize) {
+        let d = self.d.get_or_insert_with(|| Duplicates {
+            same_amount_date_groups: 0,
+            same_amount_date_invoices: 0,
+            same_number_groups: 0,
+            same_number_invoices: 0,
+            undated: 0,
+            unnumbered: 0,
+            groups: Vec::new(),
+            groups_truncated: false,
+        });
+        d.same_amount_date_groups += part.same_amount_date_groups;
+        d.same_amount_date_invoices += part.same_amount_date_invoices;
+        d.same_number_groups += part.same_number_groups;
+        d.same_number_invoices += part.same_number_invoices;
+        d.undated += part.undated;
+        d.unnumbered += part.unnumbered;
+        for g in &part.groups {
+            prune_groups(&mut d.groups, keep);
+            d.groups.push(DuplicateGroup {
+                kind: g.kind,
+                supplier: g.supplier,
+                amount: g.amount,
+                date: g.date,
+                count: g.count,
+                extra_amount: g.extra_amount,
+                invoices: g.invoices.iter().map(|&i| to_whole(i)).collect(),
+            });
+        }
+    }
+
+    /// The population's duplicates (None when no part was added).
+    pub fn finish(self, keep: usize) -> Option<Duplicates> {
+        let mut d = self.d?;
+        sort_groups(&mut d.groups);
+        d.groups_truncated = d.same_amount_date_groups + d.same_number_groups > keep as u64;
+        d.groups.truncate(keep);
+        Some(d)
+    }
 }
 
 /// Counts by one pass over the population: `#keys in [x, y)` is what positions in the sorted

@@ -26,7 +26,7 @@ mod sort;
 mod special;
 
 pub use amounts::{
-    AmountChecks, DuplicateGroup, Duplicates, FrequentAmount, LimitCluster, RoundAmounts, RoundLevel,
+    AmountChecks, DuplicateGroup, Duplicates, DuplicatesMerge, FrequentAmount, LimitCluster, RoundAmounts, RoundLevel,
 };
 pub use digits::{band_limits, Band, Conformity, DigitTest, BANDS_NOTE, BANDS_SOURCE};
 pub use special::{Distortion, SecondOrder, Summation, SummationBin};
@@ -349,6 +349,13 @@ pub(crate) fn for_each_sorted_window<M: Members + ?Sized>(invoices: &M, mut f: i
 
 /// Run the selected tests over one population.
 pub fn run<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions) -> Battery {
+    run_with(invoices, opts, None)
+}
+
+/// As [`run`], with the population's duplicate findings known already (`known`: merged from
+/// the parts it is a disjoint union of, by [`DuplicatesMerge`]; the whole file from its
+/// suppliers), which then are not searched again.
+pub fn run_with<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions, known: Option<Duplicates>) -> Battery {
     let t = opts.tests;
     let mut c1 = [0u64; 9];
     let mut c2 = [0u64; 10];
@@ -404,7 +411,7 @@ pub fn run<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions) -> Battery 
     }
     if t.second_order || t.amounts {
         let mut so = special::SecondOrderAcc::default();
-        let mut runs = amounts::RunsAcc::default();
+        let mut runs = amounts::RunsAcc::new(known.is_some());
         for_each_sorted_window(invoices, |sorted| {
             if t.second_order {
                 so.feed(sorted);
@@ -417,7 +424,7 @@ pub fn run<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions) -> Battery 
             b.second_order = Some(so.finish());
         }
         if t.amounts {
-            b.amount_checks = Some(amounts::amount_checks(invoices, runs, opts));
+            b.amount_checks = Some(amounts::amount_checks(invoices, runs, opts, known));
         }
     }
     b
