@@ -383,7 +383,8 @@ pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> Batteries {
         let at = |i: usize| idx[i] as usize;
         out[sid] = if idx.len() <= battery::WINDOW_MIN {
             copy.clear();
-            copy.extend(idx.iter().map(|&i| ledger.invoices[i as usize]));
+            let members = Indexed { all: &ledger.invoices, idx };
+            copy.extend((0..idx.len()).map(|p| *members.at(p)));
             one(ledger, sid, copy.as_slice(), at, opts, &mut merge)
         } else {
             one(ledger, sid, &Indexed { all: &ledger.invoices, idx }, at, opts, &mut merge)
