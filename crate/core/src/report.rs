@@ -277,54 +277,67 @@ pub fn screen(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &Scr
     screen_with(ledger, info, min_amount, opts, cal)
 }
 
-/// The null-table sizes a screen of `ledger` will read that `cal` lacks, from one quick pass
-/// over the invoices (each supplier's count of amounts with first-two digits, as its battery
-/// counts them), before any battery: so that they can be simulated beside the batteries. A
-/// size missed here is simulated when read, with the same numbers.
-pub fn likely_screen_tables(cal: &Calibrator, ledger: &Ledger) -> Vec<u64> {
+/// Each supplier's calibration input (first-two digit counts, smallest and largest amount)
+/// and invoice count, from one quick pass over the invoices, before any battery (suppliers with
+/// invoices, in id order): the same as [`calibration_inputs`] gives from their batteries, so
+/// that the null tables and the power work can start beside the batteries.
+pub fn quick_calibration_inputs(ledger: &Ledger) -> (Vec<SupplierInput>, Vec<u64>) {
     let k = ledger.suppliers.len();
-    let (mut digits, mut invoices) = (vec![0u64; k], vec![0u64; k]);
+    let mut inputs: Vec<SupplierInput> = (0..k).map(|_| SupplierInput { first_two_counts: vec![0; 90], amount_min: Amount(i64::MAX), amount_max: Amount(0) }).collect();
+    let mut invoices = vec![0u64; k];
     for inv in &ledger.invoices {
         let s = inv.supplier as usize;
         invoices[s] += 1;
-        digits[s] += inv.amount.abs().leading_digits(3).is_some() as u64;
+        let x = &mut inputs[s];
+        x.amount_min = x.amount_min.min(inv.amount);
+        x.amount_max = x.amount_max.max(inv.amount);
+        if let Some(d) = inv.amount.abs().leading_digits(2) {
+            x.first_two_counts[(d - 10) as usize] += 1;
+        }
     }
-    let ns: Vec<u64> = (0..k).filter(|&s| invoices[s] > 0).map(|s| digits[s]).collect();
-    let sizes: Vec<u64> = invoices.into_iter().filter(|&n| n > 0).collect();
-    tables_for(cal, &ns, &sizes)
+    inputs.into_iter().zip(invoices).filter(|(_, n)| *n > 0).unzip()
+}
+
+/// The null-table sizes a screen of `ledger` will read that `cal` lacks, from the quick pass
+/// ([`quick_calibration_inputs`]), before any battery: so that they can be simulated beside
+/// the batteries. A size missed here is simulated when read, with the same numbers.
+pub fn likely_screen_tables(cal: &Calibrator, ledger: &Ledger) -> Vec<u64> {
+    let (inputs, invoices) = quick_calibration_inputs(ledger);
+    screen_tables(cal, &inputs, &invoices)
+}
+
+/// The null-table sizes `cal` lacks for suppliers with these calibration inputs and invoice
+/// counts.
+fn screen_tables(cal: &Calibrator, inputs: &[SupplierInput], invoices: &[u64]) -> Vec<u64> {
+    let ns: Vec<u64> = inputs.iter().map(|x| x.first_two_counts.iter().sum()).collect();
+    tables_for(cal, &ns, invoices)
 }
 
 /// As [`screen`], with a calibrator that may hold null tables already (e.g. simulated while
-/// the file was read). Natively the work is spread over two threads in two rounds, each pairing
-/// a memory-hungry part with one that needs next to none, so that memory stays within the
-/// per-row budget: the supplier batteries beside the null tables, then the whole file's and
-/// the credit notes' batteries beside the power work. Every number is the same as on one
-/// thread (tables and power results are seeded by their own size and path).
+/// the file was read). Natively the work is spread over two threads, so that memory stays
+/// within the per-row budget: one makes the batteries (the suppliers', then the whole file's
+/// and the credit notes'), which need memory; the other, which needs next to none, the null
+/// tables and the power work for each supplier, from the quick pass's inputs
+/// ([`quick_calibration_inputs`]; the calibration after the batteries finds them cached).
+/// Every number is the same as on one thread (tables and power results are seeded by their
+/// own size and path).
 pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions, mut cal: Option<Calibrator>) -> ScreenReport {
     if cfg!(target_arch = "wasm32") {
         return finish_screen(ledger, info, min_amount, opts, supplier_batteries(ledger, opts), cal.as_mut());
     }
-    let need = cal.as_ref().map(|c| likely_screen_tables(c, ledger)).unwrap_or_default();
-    let (Batteries { suppliers, counts, file_duplicates }, mut cal) = std::thread::scope(|sc| {
-        let tables = sc.spawn(move || {
-            if let Some(c) = cal.as_mut() {
+    let quick = cal.as_ref().map(|_| quick_calibration_inputs(ledger));
+    let ((Batteries { suppliers, counts, .. }, whole, credits), mut cal) = std::thread::scope(|sc| {
+        let calibration = sc.spawn(move || {
+            if let (Some(c), Some((inputs, invoices))) = (cal.as_mut(), quick) {
+                let need = screen_tables(c, &inputs, &invoices);
                 c.prepare(&need, 1);
+                c.powers(&inputs, 1);
             }
             cal
         });
-        let b = supplier_batteries(ledger, opts);
-        (b, tables.join().expect("null tables thread"))
-    });
-    let (whole, credits) = std::thread::scope(|sc| {
-        let pops = sc.spawn(|| whole_file_and_credits(ledger, opts, file_duplicates));
-        if let Some(c) = cal.as_mut() {
-            let inputs = calibration_inputs(&suppliers, &counts);
-            let ns: Vec<u64> = counts.iter().map(|c| c.iter().sum()).collect();
-            let missing = c.ledger_missing(&ns);
-            c.prepare(&missing, 1);
-            c.powers(&inputs, 1);
-        }
-        pops.join().expect("whole-file battery thread")
+        let mut b = supplier_batteries(ledger, opts);
+        let (whole, credits) = whole_file_and_credits(ledger, opts, b.file_duplicates.take());
+        ((b, whole, credits), calibration.join().expect("calibration thread"))
     });
     finish_screen_parts(ledger, info, min_amount, opts, suppliers, &counts, cal.as_mut(), whole, credits)
 }

@@ -699,7 +699,7 @@ pub struct SupplierCalibration {
 }
 
 /// One supplier's input for [`Calibrator::ledger`].
-#[derive(Clone, Debug)]
+#[derive(Clone, Debug, PartialEq)]
 pub struct SupplierInput {
     pub first_two_counts: Vec<u64>,
     pub amount_min: Amount,

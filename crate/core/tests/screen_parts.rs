@@ -1,0 +1,38 @@
+//! The native screen's split over two threads gives the same report as the single-thread
+//! order, and the quick pass's calibration inputs equal those read from the batteries.
+//! Self-consistency checks on the demo ledger (invented data).
+
+use digitdrift_core::calibrate::{CalibrationOptions, Calibrator};
+use digitdrift_core::intake::{Intake, IntakeOptions};
+use digitdrift_core::report::{self, ScreenOptions};
+
+fn demo() -> digitdrift_core::intake::IntakeResult {
+    let path = concat!(env!("CARGO_MANIFEST_DIR"), "/../../demo-files/heathervale-vet-ledger.csv");
+    let mut it = Intake::new(IntakeOptions::default());
+    it.feed(&std::fs::read(path).expect("demo ledger")).expect("intake");
+    it.finish().expect("intake")
+}
+
+#[test]
+fn quick_inputs_equal_the_batteries_inputs() {
+    let r = demo();
+    let opts = ScreenOptions::default();
+    let b = report::supplier_batteries(&r.ledger, &opts);
+    let (quick, invoices) = report::quick_calibration_inputs(&r.ledger);
+    assert!(quick.len() > 10);
+    assert_eq!(quick, report::calibration_inputs(&b.suppliers, &b.counts));
+    assert_eq!(invoices, b.suppliers.iter().map(|s| s.invoices).collect::<Vec<_>>());
+}
+
+#[test]
+fn two_thread_screen_equals_one_thread_order() {
+    let r = demo();
+    let min = IntakeOptions::default().min_amount;
+    let mut opts = ScreenOptions::default();
+    opts.calibration = Some(CalibrationOptions { sims: 2000, ..CalibrationOptions::default() });
+    let split = report::screen(&r.ledger, &r.info, min, &opts);
+    let mut cal = Calibrator::new(opts.calibration.clone().unwrap());
+    let one = report::finish_screen(&r.ledger, &r.info, min, &opts, report::supplier_batteries(&r.ledger, &opts), Some(&mut cal));
+    assert_eq!(serde_json::to_string(&split).unwrap(), serde_json::to_string(&one).unwrap());
+    assert!(split.calibration.as_ref().is_some_and(|c| c.alarms > 0), "the demo has deviating suppliers");
+}
