@@ -345,6 +345,7 @@ impl Members for Indexed<'_> {
 }
 
 /// How many members ahead [`Indexed`] asks for (x86-64 only).
+#[cfg(target_arch = "x86_64")]
 const PREFETCH: usize = 32;
 
 /// Calls `f` with a population's nonzero amounts as sort keys (|amount| in amount units),
