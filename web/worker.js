@@ -111,7 +111,7 @@ function startHelper() {
       if (m.ms !== undefined) h.lastMs = m.ms;
       const j = h.jobs.get(m.job);
       h.jobs.delete(m.job);
-      if (j) j(m.ok ? (m.tables || m.powers) : null);
+      if (j) j(m.ok ? (m.result || m.tables || m.powers) : null);
       if (!m.ok) fail();
     };
     w.onerror = (ev) => { ev.preventDefault(); resolve(fail()); };
@@ -144,6 +144,8 @@ function helperJob(h, msg, transfer) {
   return h.started.then((ok) => (ok && helper === h ? send() : null));
 }
 const helperTables = (h, plan) => helperJob(h, { cmd: 'tables', ns: plan.theirs, sims: plan.sims, seed: plan.seed });
+const helperTablesPower = (h, plan) => helperJob(h, { cmd: 'tablesPower', ns: plan.theirs, sims: plan.sims, seed: plan.seed, options: plan.share.options, inputs: plan.share.inputs },
+  [plan.share.inputs.buffer]);
 const helperPowers = (h, share) => helperJob(h, { cmd: 'power', options: share.options, ns: share.ns, tables: share.tables, inputs: share.inputs },
   [share.ns.buffer, share.tables.buffer, share.inputs.buffer]);
 
@@ -156,12 +158,43 @@ let keepTables = true;
 let calibrationOnly = false; // benchmark: nothing but calibration while the helper does power work
 async function screenSplit(settings, cancellable) {
   const t0 = performance.now();
-  const plan = session.screenPlan(settings);
+  // The helper takes the whole calibration (every table, then every supplier's power work from
+  // the quick pass's inputs) while the batteries run here; the benchmark's calibration-alone
+  // runs split the tables and the power work between the two Workers instead.
+  const together = helperWanted && !calibrationOnly && helper && helper.ready;
+  const plan = session.screenPlan(settings, !!together);
   const h = plan.theirs.length && helperWanted ? startHelper() : null;
+  const stop = () => { session.screenAbort(); stopHelper(); if (helperWanted) startHelper(); return null; };
+  if (h && plan.share) {
+    const job = helperTablesPower(h, plan);
+    session.screenBatteries();
+    const t1 = performance.now();
+    session.screenWhole(); // the whole file's battery too, while the helper works
+    const tw = performance.now();
+    const got = await Promise.race([job, new Promise((r) => { onCancel = () => r(null); })]);
+    onCancel = null;
+    if (cancellable && cancelled) return stop();
+    if (got) {
+      session.insertTables(plan.theirs, got.tables);
+      session.insertQuickPowers(got.powers);
+    } else {
+      // the helper failed: its work is done here, the same numbers later
+      stopHelper();
+      for (const n of plan.theirs) {
+        session.prepareTables([n]);
+        await yieldNow();
+        if (cancellable && cancelled) return stop();
+      }
+    }
+    const t3 = performance.now();
+    const screen = session.screenFinish();
+    const t4 = performance.now();
+    return { screen, workers: got ? 2 : 1, powerWorkers: got ? 2 : 1,
+      timing: { batteries: t1 - t0, tables: 0, power: t3 - t1, finish: t4 - t3, mine: 0, theirs: plan.theirs.length, powerTheirs: got ? plan.share.count : 0, helperPowerMs: h.lastMs, planMs: 0, wholeMs: tw - t1 } };
+  }
   const theirs = h ? helperTables(h, plan) : null; // the helper simulates while the batteries run here
   session.screenBatteries();
   const t1 = performance.now();
-  const stop = () => { session.screenAbort(); stopHelper(); if (helperWanted) startHelper(); return null; };
   const simulate = async (ns) => {
     for (const n of ns) {
       session.prepareTables([n]);
@@ -269,6 +302,14 @@ const handlers = {
   async tables({ job, ns, sims, seed }) {
     const t = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);
     self.postMessage({ job, ok: true, tables: t }, [t.buffer]);
+  },
+  // The whole calibration of another Worker's screen: its null tables at `ns`, then the power
+  // work of every supplier (`inputs`, flat) with those and the tables held here.
+  async tablesPower({ job, ns, sims, seed, options, inputs }) {
+    const t0 = performance.now();
+    const tables = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);
+    const powers = wasm_bindgen.powerShare(options, new Float64Array(0), new Float64Array(0), inputs);
+    self.postMessage({ job, ok: true, result: { tables, powers }, ms: performance.now() - t0 }, [tables.buffer, powers.buffer]);
   },
   async power({ job, options, ns, tables, inputs }) {
     const t0 = performance.now();

@@ -298,17 +298,11 @@ pub fn quick_calibration_inputs(ledger: &Ledger) -> (Vec<SupplierInput>, Vec<u64
     inputs.into_iter().zip(invoices).filter(|(_, n)| *n > 0).unzip()
 }
 
-/// The null-table sizes a screen of `ledger` will read that `cal` lacks, from the quick pass
-/// ([`quick_calibration_inputs`]), before any battery: so that they can be simulated beside
-/// the batteries. A size missed here is simulated when read, with the same numbers.
-pub fn likely_screen_tables(cal: &Calibrator, ledger: &Ledger) -> Vec<u64> {
-    let (inputs, invoices) = quick_calibration_inputs(ledger);
-    screen_tables(cal, &inputs, &invoices)
-}
-
 /// The null-table sizes `cal` lacks for suppliers with these calibration inputs and invoice
-/// counts.
-fn screen_tables(cal: &Calibrator, inputs: &[SupplierInput], invoices: &[u64]) -> Vec<u64> {
+/// counts (from [`quick_calibration_inputs`], before any battery: so that they can be
+/// simulated beside the batteries; a size missed here is simulated when read, with the same
+/// numbers).
+pub fn screen_tables(cal: &Calibrator, inputs: &[SupplierInput], invoices: &[u64]) -> Vec<u64> {
     let ns: Vec<u64> = inputs.iter().map(|x| x.first_two_counts.iter().sum()).collect();
     tables_for(cal, &ns, invoices)
 }

@@ -105,6 +105,8 @@ struct PendingScreen {
     whole: Option<(report::SupplierResult, report::SupplierResult)>,
     /// The whole file's duplicate findings, merged from the suppliers' (`screenBatteries`).
     file_duplicates: Option<digitdrift_core::battery::Duplicates>,
+    /// Every supplier's calibration input from the quick pass (`screenPlan`), in order.
+    quick: Vec<SupplierInput>,
     /// The suppliers whose power work the other Worker does (`powerPlan`, `insertPowers`).
     theirs: Vec<usize>,
 }
@@ -313,11 +315,18 @@ impl Session {
 
     /// The first step of a screen split over two Workers: returns the null tables the
     /// calibration will read (from one quick pass over the ledger, before any battery), split by
-    /// simulation cost: `{mine, theirs, sims, seed}` (`mine` for `prepareTables` here, `theirs`
-    /// for `nullTables` in the other Worker; both empty when calibration is off). Then
+    /// simulation cost: `{mine, theirs, sims, seed, share}` (`mine` for `prepareTables` here,
+    /// `theirs` for `nullTables` in the other Worker; both empty when calibration is off). Then
     /// `screenBatteries` (while the other Worker simulates), ..., `screenFinish`.
+    ///
+    /// `together`: the other Worker takes the whole calibration instead: every table
+    /// (`mine` empty) and then the power work of every supplier, from the quick pass's inputs
+    /// (`share`: `{options, inputs, count}` for `tablesPower`; null when calibration is off),
+    /// while this Worker makes every battery; its results go in with `insertTables` and
+    /// `insertQuickPowers`.
     #[wasm_bindgen(js_name = screenPlan)]
-    pub fn screen_plan(&mut self, settings: JsValue) -> Result<JsValue, JsValue> {
+    pub fn screen_plan(&mut self, settings: JsValue, together: Option<bool>) -> Result<JsValue, JsValue> {
+        let together = together.unwrap_or(false);
         self.pending = None;
         let r = self.result.as_ref().ok_or_else(|| err("no ledger yet"))?;
         let opts = screen_options(settings)?;
@@ -330,17 +339,32 @@ impl Session {
                 }
             }
         }
-        let (parts, sims, seed) = match &cal {
-            Some(c) => {
-                // the helper starts on its share while the batteries run here: it takes 3/5
-                // of the simulation cost (measured balanced in bench/speed.mjs --page)
-                let need = report::likely_screen_tables(c, &r.ledger);
-                (digitdrift_core::calibrate::split_sizes_by(&need, &[2, 3]), c.options().sims, c.options().seed)
+        let quick = cal.as_ref().map(|_| report::quick_calibration_inputs(&r.ledger));
+        let (parts, sims, seed) = match (&cal, &quick) {
+            (Some(c), Some((inputs, invoices))) => {
+                let need = report::screen_tables(c, inputs, invoices);
+                let parts = if together {
+                    vec![Vec::new(), need]
+                } else {
+                    // the helper starts on its share while the batteries run here: it takes 3/5
+                    // of the simulation cost (measured balanced in bench/speed.mjs --page)
+                    digitdrift_core::calibrate::split_sizes_by(&need, &[2, 3])
+                };
+                (parts, c.options().sims, c.options().seed)
             }
-            None => (vec![Vec::new(), Vec::new()], 0, 0),
+            _ => (vec![Vec::new(), Vec::new()], 0, 0),
         };
-        self.pending = Some(PendingScreen { opts, suppliers: Vec::new(), counts: Vec::new(), cal, inputs: Vec::new(), mine: Vec::new(), whole: None, theirs: Vec::new(), file_duplicates: None });
-        to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "sims": sims, "seed": seed}))
+        let out = to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "sims": sims, "seed": seed, "share": null}))?;
+        let quick = quick.map(|q| q.0).unwrap_or_default();
+        if let (true, Some(c)) = (together, cal.as_ref()) {
+            let share = js_sys::Object::new();
+            js_sys::Reflect::set(&share, &"options".into(), &to_js(c.options())?)?;
+            js_sys::Reflect::set(&share, &"inputs".into(), &js_sys::Float64Array::from(&inputs_to_flat(&quick.iter().collect::<Vec<_>>())[..]))?;
+            js_sys::Reflect::set(&share, &"count".into(), &JsValue::from(quick.len() as u32))?;
+            js_sys::Reflect::set(&out, &"share".into(), &share)?;
+        }
+        self.pending = Some(PendingScreen { opts, suppliers: Vec::new(), counts: Vec::new(), cal, inputs: Vec::new(), mine: Vec::new(), whole: None, theirs: Vec::new(), file_duplicates: None, quick });
+        Ok(out)
     }
 
     /// Every supplier's battery for the planned screen (`screenPlan` first).
@@ -442,6 +466,23 @@ impl Session {
             c.power_of(&p.inputs[i]);
         }
         Ok(p.mine.len() as u32)
+    }
+
+    /// Put the other Worker's power results for every supplier (`tablesPower` with
+    /// `screenPlan(settings, true)`'s `share`) in.
+    #[wasm_bindgen(js_name = insertQuickPowers)]
+    pub fn insert_quick_powers(&mut self, flat: &[f64]) -> Result<(), JsValue> {
+        let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
+        let Some(c) = p.cal.as_mut() else { return Ok(()) };
+        let mut at = 0;
+        for input in &p.quick {
+            let r = PowerResult::read_flat(flat, &mut at).ok_or_else(|| err("power results too short"))?;
+            c.insert_power(input, r);
+        }
+        if at != flat.len() {
+            return Err(err("power results of the wrong length"));
+        }
+        Ok(())
     }
 
     /// Put the other Worker's power results (`powerShare` of `powerPlan`'s `theirs`) in.
