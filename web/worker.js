@@ -54,14 +54,24 @@ async function openLedger(id, blob, name, options, settings) {
   // reads (the power-curve checkpoints): kept for this ledger's screens.
   const likely = helperWanted && keepTables && helper && helper.ready ? wasm_bindgen.likelyTables(settings || {}) : null;
   const ahead = likely && likely.ns.length ? helperTables(helper, { theirs: likely.ns, sims: likely.sims, seed: likely.seed }) : null;
+  // ... and hashes the file (SHA-256, its fingerprint) from the chunks read here, handed over
+  // once fed (transferred, not copied).
+  const hashing = helperWanted && helper && helper.ready ? helperHasher(helper) : null;
+  if (hashing) session.hashElsewhere();
   for await (const { buf, end } of slices(blob)) {
     if (cancelled) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
     session.feed(buf);
+    if (hashing) await hashing.part(buf);
     done = end;
     post({ progress: true, id, done, total, rows: session.rowsSoFar() });
   }
   const intake = session.finish();
   const intakeMs = performance.now() - t0;
+  if (hashing) {
+    const hex = await hashing.end();
+    if (hex) session.setFingerprint(hex);
+    else for await (const { buf } of slices(blob)) session.hashPart(buf); // the helper failed: hashed here
+  }
   if (ahead) {
     const t = await ahead;
     if (t) session.holdTables(new Float64Array(likely.ns), t, likely.sims, likely.seed);
@@ -86,6 +96,7 @@ async function openLedger(id, blob, name, options, settings) {
 // an earlier job was left behind (a Cancel while the file was read). If the helper cannot
 // start or fails, this Worker does the missing work itself: the same numbers, later.
 let isHelper = false;
+let hasher = null; // in the helper: { id, h: wasm_bindgen.Hasher, n: chunks hashed }
 let wasmModule = null;
 let helper = null; // { worker, ready: boolean, started: Promise<boolean>, jobs: Map(id -> resolver) }
 let jobIds = 0;
@@ -108,6 +119,7 @@ function startHelper() {
     w.onmessage = (ev) => {
       const m = ev.data;
       if ('ready' in m) { h.ready = m.ready; resolve(m.ready || fail()); return; }
+      if ('hashed' in m) { if (h.onHashed) h.onHashed(m); return; }
       if (m.ms !== undefined) h.lastMs = m.ms;
       const j = h.jobs.get(m.job);
       h.jobs.delete(m.job);
@@ -142,6 +154,32 @@ function helperJob(h, msg, transfer) {
   });
   if (h.ready && helper === h) return send();
   return h.started.then((ok) => (ok && helper === h ? send() : null));
+}
+// The helper hashes a file's chunks in order (`part`: the chunk's buffer is transferred, so
+// it must not be used after), at most HASH_AHEAD chunks behind; `end()` gives the SHA-256 (hex)
+// or null when the helper failed.
+const HASH_AHEAD = 32;
+let hashIds = 0;
+function helperHasher(h) {
+  const hid = ++hashIds;
+  let sent = 0;
+  let acked = 0;
+  let wake = null;
+  h.onHashed = (m) => { if (m.hash === hid) { acked = m.hashed; if (wake) { const w = wake; wake = null; w(); } } };
+  const alive = () => helper === h;
+  h.worker.postMessage({ cmd: 'hashStart', hash: hid });
+  return {
+    async part(buf) {
+      if (!alive()) return;
+      h.worker.postMessage({ cmd: 'hashPart', hash: hid, part: buf.buffer }, [buf.buffer]);
+      sent++;
+      while (alive() && sent - acked > HASH_AHEAD) {
+        await new Promise((r) => { wake = r; setTimeout(r, 200); }); // also wakes to see a helper gone
+        wake = null;
+      }
+    },
+    end() { return alive() ? helperJob(h, { cmd: 'hashEnd', hash: hid }) : Promise.resolve(null); },
+  };
 }
 const helperTables = (h, plan) => helperJob(h, { cmd: 'tables', ns: plan.theirs, sims: plan.sims, seed: plan.seed });
 const helperTablesPower = (h, plan) => helperJob(h, { cmd: 'tablesPower', ns: plan.theirs, sims: plan.sims, seed: plan.seed, options: plan.share.options, inputs: plan.share.inputs },
@@ -245,8 +283,11 @@ async function screenSplit(settings, cancellable) {
 }
 
 // A zero-delay yield to the event loop, so a Cancel message gets in between replications.
+// Several callers may wait at once (the helper's table job and another): one resolver each, in order.
 const yieldChannel = new MessageChannel();
-function yieldNow() { return new Promise((r) => { yieldChannel.port1.onmessage = () => r(); yieldChannel.port2.postMessage(0); }); }
+const yieldWaiting = [];
+yieldChannel.port1.onmessage = () => { const r = yieldWaiting.shift(); if (r) r(); };
+function yieldNow() { return new Promise((r) => { yieldWaiting.push(r); yieldChannel.port2.postMessage(0); }); }
 
 // Detection trial: one replication per call into the core, progress after each, Cancel between.
 async function runTrial(id, settings) {
@@ -299,9 +340,30 @@ const handlers = {
   async calibrationOnly({ id, on }) { calibrationOnly = !!on; post({ id, ok: true, value: calibrationOnly }); },
   // The helper's jobs (see screenSplit): null tables for another Worker's screen, and its
   // share of the power work with the other Worker's tables.
+  // One table per call, with a yield between, so that chunks to hash get in meanwhile.
   async tables({ job, ns, sims, seed }) {
-    const t = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);
+    const parts = [];
+    for (const n of ns) {
+      parts.push(wasm_bindgen.nullTables(new Float64Array([n]), sims, seed));
+      await yieldNow();
+    }
+    const t = new Float64Array(parts.reduce((a, p) => a + p.length, 0));
+    let at = 0;
+    for (const p of parts) { t.set(p, at); at += p.length; }
     self.postMessage({ job, ok: true, tables: t }, [t.buffer]);
+  },
+  async hashStart({ hash }) { if (hasher) hasher.h.free(); hasher = { id: hash, h: new wasm_bindgen.Hasher(), n: 0 }; },
+  async hashPart({ hash, part }) {
+    if (!hasher || hasher.id !== hash) return;
+    hasher.h.update(new Uint8Array(part));
+    self.postMessage({ hash, hashed: ++hasher.n });
+  },
+  async hashEnd({ job, hash }) {
+    if (!hasher || hasher.id !== hash) { self.postMessage({ job, ok: true, result: null }); return; }
+    const hex = hasher.h.hex();
+    hasher.h.free();
+    hasher = null;
+    self.postMessage({ job, ok: true, result: hex });
   },
   // The whole calibration of another Worker's screen: its null tables at `ns`, then the power
   // work of every supplier (`inputs`, flat) with those and the tables held here.

@@ -4,7 +4,8 @@
 // must match what was written. Windows-1252 bytes for ü/ß/é follow the WHATWG Encoding Standard.
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
-import { writeFileSync, mkdtempSync } from 'node:fs';
+import { writeFileSync, mkdtempSync, readFileSync } from 'node:fs';
+import { createHash } from 'node:crypto';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { launch, openPage, networkRequests, screenshot } from './browser.mjs';
@@ -100,7 +101,7 @@ test('a digit-count table from an SQL engine is screened without the ledger', as
   assert.deepEqual(errors, []);
 });
 
-test('Cancel while a file is read, then another ledger opens with the same numbers as before', async () => {
+test('Cancel while a file is read, then another ledger opens with the same numbers as before; SHA-256 of files of many chunks', async () => {
   // A 300,000-row invented ledger (about 14 MB): long enough to Cancel mid-way. While it is
   // read, the helper Worker is busy with null tables for it; the demo ledger opened right after
   // the Cancel must get its own helper answers (jobs carry ids), not that left-behind one.
@@ -115,9 +116,14 @@ test('Cancel while a file is read, then another ledger opens with the same numbe
   const demo = async () => {
     await page.click('#demo');
     await page.waitForSelector('body[data-loaded="yes"]', { timeout: 120_000 });
-    return page.evaluate(() => ({ rows: window.digitdrift.report.rows, mc: window.digitdrift.report.suppliers.map((s) => [s.name, s.first_two.mc_p_value, s.invoices_needed]) }));
+    return page.evaluate(() => ({ rows: window.digitdrift.report.rows, sha256: window.digitdrift.sha256, mc: window.digitdrift.report.suppliers.map((s) => [s.name, s.first_two.mc_p_value, s.invoices_needed]) }));
   };
+  // The fingerprint is hashed by the helper Worker from the chunks the page reads (1 MiB each):
+  // it must be Node's SHA-256 of the same bytes (the demo ledger is about 10 MB).
+  const sha = (bytes) => createHash('sha256').update(bytes).digest('hex');
+  const demoSha = sha(readFileSync(new URL('../../demo-files/heathervale-vet-ledger.csv', import.meta.url)));
   const reference = await demo();
+  assert.equal(reference.sha256, demoSha);
   await page.evaluate(() => { delete document.body.dataset.loaded; });
   await page.click('#nav a[data-view="ledger"]');
   await page.setInputFiles('#file', file);
@@ -129,6 +135,16 @@ test('Cancel while a file is read, then another ledger opens with the same numbe
   const again = await demo();
   assert.deepEqual(again, reference);
   assert.equal(await page.evaluate(() => window.digitdrift.calibrationWorkers), 2);
+  // the long ledger read to the end this time (a copy: choosing the same file again fires no change)
+  const whole = join(dir, 'long-ledger-again.csv');
+  writeFileSync(whole, readFileSync(file));
+  await page.evaluate(() => { delete document.body.dataset.loaded; });
+  await page.click('#nav a[data-view="ledger"]');
+  await page.setInputFiles('#file', whole);
+  await page.waitForSelector('#map-go');
+  await page.click('#map-go');
+  await page.waitForSelector('body[data-loaded="yes"]', { timeout: 120_000 });
+  assert.equal(await page.evaluate(() => window.digitdrift.sha256), sha(readFileSync(file)));
   assert.deepEqual(networkRequests(requests), []);
   assert.deepEqual(errors, []);
 });

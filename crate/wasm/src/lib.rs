@@ -76,6 +76,10 @@ pub struct Session {
     min_amount: Amount,
     report: Option<report::ScreenReport>,
     fingerprint: digitdrift_core::export::Fingerprint,
+    /// False once `hashElsewhere` was called: the helper Worker hashes the file's chunks and
+    /// `setFingerprint` puts its SHA-256 here (`hashPart` hashes here again if it failed).
+    hash_here: bool,
+    fingerprint_of: Option<String>,
     /// The detection trial in progress: it reads the ledger, never changes it.
     trial: Option<digitdrift_core::trial::Trial>,
     /// The summary of the last finished trial: what the trial exports write.
@@ -235,6 +239,32 @@ fn inputs_to_flat(inputs: &[&SupplierInput]) -> Vec<f64> {
 /// `nullTables`, the power results of the suppliers `inputs` (flat, as `PowerResult::push_flat`).
 /// Every result depends only on the options, the tables and the supplier, so they are what the
 /// first Worker would have computed.
+/// SHA-256 of a file hashed chunk by chunk in the helper Worker while the screening Worker
+/// reads it (`Session.hashElsewhere`).
+#[wasm_bindgen]
+pub struct Hasher(digitdrift_core::export::Fingerprint);
+
+#[wasm_bindgen]
+impl Hasher {
+    #[wasm_bindgen(constructor)]
+    pub fn new() -> Hasher {
+        Hasher(Default::default())
+    }
+    pub fn update(&mut self, chunk: &[u8]) {
+        self.0.update(chunk);
+    }
+    /// SHA-256 of every chunk so far, in order (hex).
+    pub fn hex(&self) -> String {
+        self.0.hex()
+    }
+}
+
+impl Default for Hasher {
+    fn default() -> Self {
+        Hasher::new()
+    }
+}
+
 #[wasm_bindgen(js_name = powerShare)]
 pub fn power_share(options: JsValue, ns: &[f64], flat: &[f64], inputs: &[f64]) -> Result<Vec<f64>, JsValue> {
     let o: CalibrationOptions = serde_wasm_bindgen::from_value(options).map_err(err)?;
@@ -266,7 +296,7 @@ impl Session {
     #[wasm_bindgen(constructor)]
     pub fn new(options: JsValue) -> Result<Session, JsValue> {
         let o = intake_options(options)?;
-        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), trial: None, trial_last: None, pending: None, tables: (0, 0, Vec::new()), keep_tables: true })
+        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), hash_here: true, fingerprint_of: None, trial: None, trial_last: None, pending: None, tables: (0, 0, Vec::new()), keep_tables: true })
     }
 
     /// The file's size in bytes (`File.size`), before the first `feed`: the invoice store is
@@ -280,7 +310,9 @@ impl Session {
 
     /// Feed the next chunk of the file, in order.
     pub fn feed(&mut self, chunk: &[u8]) -> Result<(), JsValue> {
-        self.fingerprint.update(chunk);
+        if self.hash_here {
+            self.fingerprint.update(chunk);
+        }
         self.intake.as_mut().ok_or_else(|| err("intake already finished"))?.feed(chunk).map_err(err)
     }
 
@@ -588,21 +620,40 @@ impl Session {
 
     /// SHA-256 of the file as read (hex).
     pub fn fingerprint(&self) -> String {
-        self.fingerprint.hex()
+        self.fingerprint_of.clone().unwrap_or_else(|| self.fingerprint.hex())
+    }
+
+    /// Before the first `feed`: the file's chunks are hashed by the helper Worker
+    /// (`Hasher`), not in `feed`; its SHA-256 comes in with `setFingerprint`.
+    #[wasm_bindgen(js_name = hashElsewhere)]
+    pub fn hash_elsewhere(&mut self) {
+        self.hash_here = false;
+    }
+
+    /// The file's SHA-256 (hex) from the helper Worker.
+    #[wasm_bindgen(js_name = setFingerprint)]
+    pub fn set_fingerprint(&mut self, hex: String) {
+        self.fingerprint_of = Some(hex);
+    }
+
+    /// Hash the next chunk here (the file read again, in order, when the helper failed).
+    #[wasm_bindgen(js_name = hashPart)]
+    pub fn hash_part(&mut self, chunk: &[u8]) {
+        self.fingerprint.update(chunk);
     }
 
     /// CSV of the supplier results (formula-neutralised, byte-identical for the same inputs).
     #[wasm_bindgen(js_name = suppliersCsv)]
     pub fn suppliers_csv(&self, file_name: &str) -> Result<String, JsValue> {
         let rep = self.report.as_ref().ok_or_else(|| err("no screen yet"))?;
-        Ok(digitdrift_core::export::suppliers_csv(rep, file_name, &self.fingerprint.hex()))
+        Ok(digitdrift_core::export::suppliers_csv(rep, file_name, &self.fingerprint()))
     }
 
     /// CSV of the invoices to pull: `items` = [{supplier, line, date, amount, reason}].
     #[wasm_bindgen(js_name = pullCsv)]
     pub fn pull_csv(&self, items: JsValue, file_name: &str) -> Result<String, JsValue> {
         let items: Vec<digitdrift_core::export::PullItem> = serde_wasm_bindgen::from_value(items).map_err(err)?;
-        Ok(digitdrift_core::export::pull_csv(&items, file_name, &self.fingerprint.hex()))
+        Ok(digitdrift_core::export::pull_csv(&items, file_name, &self.fingerprint()))
     }
 
     /// Continuous monitoring replayed over the ledger: per supplier the alarm date, evidence
@@ -686,7 +737,7 @@ impl Session {
     #[wasm_bindgen(js_name = trialExport)]
     pub fn trial_export(&self, format: &str, file_name: &str) -> Result<String, JsValue> {
         let rep = self.trial_last.as_ref().ok_or_else(|| err("no finished trial to export"))?;
-        let sha = self.fingerprint.hex();
+        let sha = self.fingerprint();
         match format {
             "csv" => Ok(digitdrift_core::trial::trial_csv(rep, file_name, &sha)),
             "json" => Ok(digitdrift_core::trial::trial_json(rep, file_name, &sha)),
