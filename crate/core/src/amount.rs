@@ -59,12 +59,22 @@ impl Amount {
     /// 0.0456 with k=2 -> 45, 5 with k=2 -> 50 (a single significant digit is padded with zero,
     /// as the decimal text "5.0" would be). None for zero.
     pub fn leading_digits(self, k: u32) -> Option<u32> {
+        /// 10^0 ..= 10^19 (a u64 has at most 20 digits, k at least 1).
+        const POW10: [u64; 20] = {
+            let mut t = [1u64; 20];
+            let mut i = 1;
+            while i < 20 {
+                t[i] = t[i - 1] * 10;
+                i += 1;
+            }
+            t
+        };
         let v = self.0.unsigned_abs();
         if v == 0 || k == 0 || k > 18 {
             return None;
         }
         let d = v.ilog10() + 1; // number of decimal digits of the integer
-        Some(if d >= k { v / 10u64.pow(d - k) } else { v * 10u64.pow(k - d) } as u32)
+        Some(if d >= k { v / POW10[(d - k) as usize] } else { v * POW10[(k - d) as usize] } as u32)
     }
 
     /// The second significant digit (0-9).
