@@ -340,16 +340,10 @@ const handlers = {
   async calibrationOnly({ id, on }) { calibrationOnly = !!on; post({ id, ok: true, value: calibrationOnly }); },
   // The helper's jobs (see screenSplit): null tables for another Worker's screen, and its
   // share of the power work with the other Worker's tables.
-  // One table per call, with a yield between, so that chunks to hash get in meanwhile.
+  // In one call: the tables on the honest paths cost about as much together as the largest
+  // alone. Chunks to hash wait meanwhile (at most HASH_AHEAD of them).
   async tables({ job, ns, sims, seed }) {
-    const parts = [];
-    for (const n of ns) {
-      parts.push(wasm_bindgen.nullTables(new Float64Array([n]), sims, seed));
-      await yieldNow();
-    }
-    const t = new Float64Array(parts.reduce((a, p) => a + p.length, 0));
-    let at = 0;
-    for (const p of parts) { t.set(p, at); at += p.length; }
+    const t = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);
     self.postMessage({ job, ok: true, tables: t }, [t.buffer]);
   },
   async hashStart({ hash }) { if (hasher) hasher.h.free(); hasher = { id: hash, h: new wasm_bindgen.Hasher(), n: 0 }; },

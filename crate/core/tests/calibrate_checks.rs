@@ -178,9 +178,11 @@ fn results_do_not_depend_on_order() {
 
 #[test]
 fn tables_split_over_threads_give_the_same_numbers() {
-    // Each null table is seeded by its own n (seed, "null", n), so simulating a batch over two
-    // threads must give bit-identical tables, and a whole list the same result, as the lazy
-    // one-by-one path (project invariant 5, checked against NullTable::simulate itself).
+    // A null table depends only on (seed, n): off the honest paths it is seeded by its own n
+    // (seed, "null", n); on them (n < 100, grid points up to 6,000) it is read off paths whose
+    // stops do not depend on the batch. So simulating a batch over two threads must give
+    // bit-identical tables, and a whole list the same result, as the lazy one-by-one path
+    // (project invariant 5, checked against NullTable::simulate itself).
     let p = benford::first_two();
     let cat = Categorical::new(&p);
     let ns = [7u64, 99, 100, 316, 1000, 5623, 6000, 17_783, 31];

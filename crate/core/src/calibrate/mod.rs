@@ -60,6 +60,7 @@ pub const EXACT_BELOW: u64 = 100;
 pub const POWER_PER_DECADE: u32 = 4;
 
 const TAG_NULL: u64 = 0x6e75_6c6c; // "null"
+const TAG_NULL_PATH: u64 = 0x6e70_6174; // "npat"
 const TAG_POWER: u64 = 0x706f_7772; // "powr"
 const TAG_FULL: u64 = 0x6675_6c6c; // "full"
 
@@ -374,9 +375,90 @@ impl Statistic {
 /// Relative tolerance for ties between a simulated and an observed statistic.
 const TIE: f64 = 1e-12;
 
+/// Whether the null table at n is read off the shared honest paths ([`NullTable::simulate_paths`]):
+/// n below [`EXACT_BELOW`], or a grid point up to [`sample::GUIDE_MAX_N`].
+pub fn on_path(n: u64) -> bool {
+    n >= 1 && n <= sample::GUIDE_MAX_N && (n < EXACT_BELOW || grid_n(grid_floor(n)) == n)
+}
+
+/// The stops of every honest path up to `max`: 1, 2, ..., 99, then the grid points from 100
+/// on (up to [`sample::GUIDE_MAX_N`]).
+fn path_stops(max: u64) -> impl Iterator<Item = u64> {
+    (1..EXACT_BELOW)
+        .chain((grid_floor(EXACT_BELOW)..).map(grid_n).take_while(|&n| n <= sample::GUIDE_MAX_N))
+        .take_while(move |&n| n <= max)
+}
+
 impl NullTable {
-    /// Simulate `sims` honest samples of size n from the stream (seed, "null", n).
+    /// Simulate `sims` honest samples of size n: for n [`on_path`], read off the honest paths
+    /// ([`NullTable::simulate_paths`]); otherwise from the stream (seed, "null", n).
     pub fn simulate(benford: &Categorical, n: u64, sims: u32, seed: u64) -> NullTable {
+        if on_path(n) {
+            return NullTable::simulate_paths(benford, &[n], sims, seed).pop().expect("one table");
+        }
+        NullTable::simulate_own(benford, n, sims, seed)
+    }
+
+    /// The tables at sizes `ns` (each [`on_path`]), in that order, from `sims` honest paths:
+    /// path j draws invoice after invoice from its own stream (seed, "npat", j) with the guide
+    /// table, and its counts are read at every size wanted. The path stops at the same sizes
+    /// whatever is wanted ([`path_stops`]; one draw of the guide table uses 32 random bits and
+    /// the draws between two stops come from whole 64-bit words), so the table at n is the same
+    /// whether simulated alone or with others, and a batch of tables costs about as much as its
+    /// largest one. Tables at different n come from the same paths (as a supplier's counts
+    /// after n and after m invoices would): each is an exact sample of honest suppliers of its
+    /// size.
+    pub fn simulate_paths(benford: &Categorical, ns: &[u64], sims: u32, seed: u64) -> Vec<NullTable> {
+        assert!(ns.iter().all(|&n| on_path(n)), "sizes on the honest paths");
+        let mut want: Vec<u64> = ns.to_vec();
+        want.sort_unstable();
+        want.dedup();
+        let Some(&max) = want.last() else { return Vec::new() };
+        let moms: Vec<Moments> = want.iter().map(|&n| Moments::new(n, benford.probs())).collect();
+        let mut cols: Vec<[Vec<f64>; 4]> = want.iter().map(|_| std::array::from_fn(|_| Vec::with_capacity(sims as usize))).collect();
+        let stops: Vec<u64> = path_stops(max).collect();
+        for j in 0..sims as u64 {
+            let mut rng = DetRng::stream(seed, &[TAG_NULL_PATH, j]);
+            let mut c = [0u32; BINS];
+            let (mut at, mut k) = (0u64, 0usize);
+            for &stop in &stops {
+                benford.add_guided(&mut rng, stop - at, &mut c);
+                at = stop;
+                if want[k] == stop {
+                    let st = moms[k].stats(&c);
+                    let col = &mut cols[k];
+                    col[0].push(st.mad);
+                    col[1].push(st.chi_square);
+                    col[2].push(st.ks);
+                    col[3].push(st.max_z);
+                    k += 1;
+                    if k == want.len() {
+                        break;
+                    }
+                }
+            }
+        }
+        let mut scratch = Vec::new();
+        let mut by_n: HashMap<u64, NullTable> = want
+            .iter()
+            .zip(cols)
+            .map(|(&n, mut c)| {
+                for col in c.iter_mut() {
+                    sort_f64(col, &mut scratch);
+                }
+                (n, NullTable { n, sorted: c })
+            })
+            .collect();
+        // in the order asked (a size asked twice gets a copy)
+        let mut out = Vec::with_capacity(ns.len());
+        for (i, n) in ns.iter().enumerate() {
+            out.push(if ns[i + 1..].contains(n) { by_n[n].clone() } else { by_n.remove(n).expect("simulated") });
+        }
+        out
+    }
+
+    /// Simulate `sims` honest samples of size n from the stream (seed, "null", n).
+    fn simulate_own(benford: &Categorical, n: u64, sims: u32, seed: u64) -> NullTable {
         let mom = Moments::new(n, benford.probs());
         let mut rng = DetRng::stream(seed, &[TAG_NULL, n]);
         let mut cols: [Vec<f64>; 4] = std::array::from_fn(|_| Vec::with_capacity(sims as usize));
@@ -406,24 +488,46 @@ impl NullTable {
     }
 
     /// Simulate the tables for every n in `ns` (in that order), split over up to `threads`
-    /// threads ([`split_sizes`]; one thread on wasm32, where the page spreads the sizes over
-    /// Workers instead). Each table comes from its own stream (seed, "null", n), so the tables
-    /// are the same whatever the split.
+    /// threads (one on wasm32, where the page spreads the sizes over Workers instead): the
+    /// tables on the honest paths together on the first ([`NullTable::simulate_paths`]), each
+    /// other one alone on the least loaded. Every table depends only on (seed, sims, n), so
+    /// the tables are the same whatever the split.
     pub fn simulate_many(benford: &Categorical, ns: &[u64], sims: u32, seed: u64, threads: usize) -> Vec<NullTable> {
-        let threads = if cfg!(target_arch = "wasm32") { 1 } else { threads.clamp(1, ns.len().max(1)) };
-        if threads == 1 {
-            return ns.iter().map(|&n| NullTable::simulate(benford, n, sims, seed)).collect();
+        let threads = if cfg!(target_arch = "wasm32") { 1 } else { threads.max(1) };
+        let (path, own): (Vec<u64>, Vec<u64>) = ns.iter().partition(|&&n| on_path(n));
+        // jobs: the tables on the honest paths together (about the cost of the largest), then
+        // each other table alone, the costliest first, each to the least loaded thread
+        let mut parts: Vec<(u64, Vec<u64>)> = vec![(0, Vec::new()); threads];
+        if let Some(&m) = path.iter().max() {
+            parts[0] = (table_cost(m) + 100 * path.len() as u64, path.clone());
         }
-        let parts = split_sizes(ns, threads);
-        let run = |part: &Vec<u64>| part.iter().map(|&n| NullTable::simulate(benford, n, sims, seed)).collect::<Vec<_>>();
-        let done: Vec<Vec<NullTable>> = std::thread::scope(|sc| {
-            let hs: Vec<_> = parts[1..].iter().map(|part| sc.spawn(move || run(part))).collect();
-            let mut out = vec![run(&parts[0])];
-            out.extend(hs.into_iter().map(|h| h.join().expect("null table thread")));
-            out
-        });
-        let mut by_n: HashMap<u64, NullTable> = done.into_iter().flatten().map(|t| (t.n, t)).collect();
-        ns.iter().map(|n| by_n.remove(n).unwrap_or_else(|| NullTable::simulate(benford, *n, sims, seed))).collect()
+        let mut own = own;
+        own.sort_unstable_by(|a, b| table_cost(*b).cmp(&table_cost(*a)).then(b.cmp(a)));
+        for n in own {
+            let i = (0..threads).min_by_key(|&i| (parts[i].0, i)).unwrap_or(0);
+            parts[i].0 += table_cost(n);
+            parts[i].1.push(n);
+        }
+        let run = |part: &[u64]| -> Vec<NullTable> {
+            let (p, o): (Vec<u64>, Vec<u64>) = part.iter().partition(|&&n| on_path(n));
+            let mut v = NullTable::simulate_paths(benford, &p, sims, seed);
+            v.extend(o.iter().map(|&n| NullTable::simulate_own(benford, n, sims, seed)));
+            v
+        };
+        let done: Vec<NullTable> = if threads == 1 {
+            run(&parts[0].1)
+        } else {
+            std::thread::scope(|sc| {
+                let hs: Vec<_> = parts[1..].iter().filter(|p| !p.1.is_empty()).map(|p| sc.spawn(move || run(&p.1))).collect();
+                let mut out = run(&parts[0].1);
+                for h in hs {
+                    out.extend(h.join().expect("null table thread"));
+                }
+                out
+            })
+        };
+        let by_n: HashMap<u64, NullTable> = done.into_iter().map(|t| (t.n, t)).collect();
+        ns.iter().map(|n| by_n.get(n).cloned().unwrap_or_else(|| NullTable::simulate(benford, *n, sims, seed))).collect()
     }
 
     /// A table from its four sorted columns (mad, chi_square, ks, max_z), e.g. one simulated by
