@@ -47,6 +47,7 @@
     const m = ev.data;
     if (m.ready) return;
     if (m.progress) { if (m.trial) onTrialProgress(m); else onProgress(m); return; }
+    if (m.fingerprint) { onFingerprint(m); return; }
     const p = pending.get(m.id);
     if (!p) return;
     pending.delete(m.id);
@@ -481,6 +482,15 @@
     state.lastPullExport = csv;
     download(baseName() + '-invoices-to-pull.csv', csv);
   }
+  // The file's SHA-256 arrives shortly after the results (the helper Worker reads the file
+  // again meanwhile): the working paper shows it as soon as it is in.
+  const SHA_PENDING = 'being computed…';
+  function onFingerprint(m) {
+    state.sha256 = m.fingerprint;
+    for (const row of document.querySelectorAll('#paper-params tr')) {
+      if (row.firstChild.textContent === 'SHA-256 of the file') row.lastChild.textContent = m.fingerprint;
+    }
+  }
   function renderPaper() {
     const body = $('paper-body');
     const rep = state.report;
@@ -488,7 +498,7 @@
     const c = rep.calibration, r = rep.rows;
     const now = new Date();
     const params = [
-      ['File', state.fileName], ['SHA-256 of the file', state.sha256 || ''], ['Size', fmtInt(state.size || 0) + ' bytes'],
+      ['File', state.fileName], ['SHA-256 of the file', state.sha256 || SHA_PENDING], ['Size', fmtInt(state.size || 0) + ' bytes'],
       ['Rows', `${fmtInt(r.read)} read = ${fmtInt(r.analysed)} analysed + ${fmtInt(r.excluded)} excluded`],
       ['Columns used', ['supplier', 'amount', 'date', 'invoice'].map((k) => { const i = rep.intake.mapping[k]; return i === null || i === undefined ? null : `${k}: ${rep.intake.columns[i]}`; }).filter(Boolean).join('; ')],
       ['Tests', rep.parameters.tests], ['Minimum amount tested', fmtMoney(rep.parameters.min_amount)],

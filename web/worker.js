@@ -54,24 +54,21 @@ async function openLedger(id, blob, name, options, settings) {
   // reads (the power-curve checkpoints): kept for this ledger's screens.
   const likely = helperWanted && keepTables && helper && helper.ready ? wasm_bindgen.likelyTables(settings || {}) : null;
   const ahead = likely && likely.ns.length ? helperTables(helper, { theirs: likely.ns, sims: likely.sims, seed: likely.seed }) : null;
-  // ... and hashes the file (SHA-256, its fingerprint) from the chunks read here, handed over
-  // once fed (transferred, not copied).
-  const hashing = helperWanted && helper && helper.ready ? helperHasher(helper) : null;
-  if (hashing) session.hashElsewhere();
+  // The file's SHA-256 (its fingerprint) is not computed while it is read: the helper reads
+  // the file again once the screen is shown (see fingerprintLater).
+  const hashLater = helperWanted && helper && helper.ready;
+  if (hashLater) session.hashElsewhere();
+  let shown = 0;
   for await (const { buf, end } of slices(blob)) {
     if (cancelled) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
     session.feed(buf);
-    if (hashing) await hashing.part(buf);
     done = end;
-    post({ progress: true, id, done, total, rows: session.rowsSoFar() });
+    // progress at most every 50 ms: the page redraws its bar on each, on the same two cores
+    const now = performance.now();
+    if (now - shown >= 50) { shown = now; post({ progress: true, id, done, total, rows: session.rowsSoFar() }); }
   }
   const intake = session.finish();
   const intakeMs = performance.now() - t0;
-  if (hashing) {
-    const hex = await hashing.end();
-    if (hex) session.setFingerprint(hex);
-    else for await (const { buf } of slices(blob)) session.hashPart(buf); // the helper failed: hashed here
-  }
   if (ahead) {
     const t = await ahead;
     if (t) session.holdTables(new Float64Array(likely.ns), t, likely.sims, likely.seed);
@@ -82,7 +79,24 @@ async function openLedger(id, blob, name, options, settings) {
   if (!res) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
   res.timing.intakeMs = intakeMs;
   const ms = performance.now() - t0;
-  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, powerWorkers: res.powerWorkers, timing: res.timing, ms, sha256: session.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
+  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, powerWorkers: res.powerWorkers, timing: res.timing, ms, sha256: hashLater ? null : session.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
+  if (hashLater) fingerprintLater(id, blob);
+}
+
+// The file's SHA-256, computed by the helper Worker from the File itself while the page shows
+// the results (off the screen's path; a second reader of the File while this Worker read it
+// slowed both), then posted as `{fingerprint, id}`. If the helper fails, this Worker reads the
+// file again and hashes it. Exports wait for it (`fingerprintDone`).
+let fingerprintDone = Promise.resolve();
+function fingerprintLater(id, blob) {
+  const s = session;
+  const h = helper;
+  fingerprintDone = (h ? helperJob(h, { cmd: 'hashFile', blob }) : Promise.resolve(null)).then(async (hex) => {
+    if (session !== s) return; // another ledger was opened meanwhile
+    if (hex) s.setFingerprint(hex);
+    else for await (const { buf } of slices(blob)) s.hashPart(buf);
+    if (session === s) post({ fingerprint: s.fingerprint(), id });
+  });
 }
 
 // ---------- a second Worker for the calibration ----------
@@ -96,7 +110,6 @@ async function openLedger(id, blob, name, options, settings) {
 // an earlier job was left behind (a Cancel while the file was read). If the helper cannot
 // start or fails, this Worker does the missing work itself: the same numbers, later.
 let isHelper = false;
-let hasher = null; // in the helper: { id, h: wasm_bindgen.Hasher, n: chunks hashed }
 let wasmModule = null;
 let helper = null; // { worker, ready: boolean, started: Promise<boolean>, jobs: Map(id -> resolver) }
 let jobIds = 0;
@@ -119,7 +132,6 @@ function startHelper() {
     w.onmessage = (ev) => {
       const m = ev.data;
       if ('ready' in m) { h.ready = m.ready; resolve(m.ready || fail()); return; }
-      if ('hashed' in m) { if (h.onHashed) h.onHashed(m); return; }
       if (m.ms !== undefined) h.lastMs = m.ms;
       const j = h.jobs.get(m.job);
       h.jobs.delete(m.job);
@@ -154,32 +166,6 @@ function helperJob(h, msg, transfer) {
   });
   if (h.ready && helper === h) return send();
   return h.started.then((ok) => (ok && helper === h ? send() : null));
-}
-// The helper hashes a file's chunks in order (`part`: the chunk's buffer is transferred, so
-// it must not be used after), at most HASH_AHEAD chunks behind; `end()` gives the SHA-256 (hex)
-// or null when the helper failed.
-const HASH_AHEAD = 32;
-let hashIds = 0;
-function helperHasher(h) {
-  const hid = ++hashIds;
-  let sent = 0;
-  let acked = 0;
-  let wake = null;
-  h.onHashed = (m) => { if (m.hash === hid) { acked = m.hashed; if (wake) { const w = wake; wake = null; w(); } } };
-  const alive = () => helper === h;
-  h.worker.postMessage({ cmd: 'hashStart', hash: hid });
-  return {
-    async part(buf) {
-      if (!alive()) return;
-      h.worker.postMessage({ cmd: 'hashPart', hash: hid, part: buf.buffer }, [buf.buffer]);
-      sent++;
-      while (alive() && sent - acked > HASH_AHEAD) {
-        await new Promise((r) => { wake = r; setTimeout(r, 200); }); // also wakes to see a helper gone
-        wake = null;
-      }
-    },
-    end() { return alive() ? helperJob(h, { cmd: 'hashEnd', hash: hid }) : Promise.resolve(null); },
-  };
 }
 const helperTables = (h, plan) => helperJob(h, { cmd: 'tables', ns: plan.theirs, sims: plan.sims, seed: plan.seed });
 const helperTablesPower = (h, plan) => helperJob(h, { cmd: 'tablesPower', ns: plan.theirs, sims: plan.sims, seed: plan.seed, options: plan.share.options, inputs: plan.share.inputs },
@@ -341,22 +327,17 @@ const handlers = {
   // The helper's jobs (see screenSplit): null tables for another Worker's screen, and its
   // share of the power work with the other Worker's tables.
   // In one call: the tables on the honest paths cost about as much together as the largest
-  // alone. Chunks to hash wait meanwhile (at most HASH_AHEAD of them).
+  // alone.
   async tables({ job, ns, sims, seed }) {
     const t = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);
     self.postMessage({ job, ok: true, tables: t }, [t.buffer]);
   },
-  async hashStart({ hash }) { if (hasher) hasher.h.free(); hasher = { id: hash, h: new wasm_bindgen.Hasher(), n: 0 }; },
-  async hashPart({ hash, part }) {
-    if (!hasher || hasher.id !== hash) return;
-    hasher.h.update(new Uint8Array(part));
-    self.postMessage({ hash, hashed: ++hasher.n });
-  },
-  async hashEnd({ job, hash }) {
-    if (!hasher || hasher.id !== hash) { self.postMessage({ job, ok: true, result: null }); return; }
-    const hex = hasher.h.hex();
-    hasher.h.free();
-    hasher = null;
+  // SHA-256 of a File (or Blob) read in 1 MiB slices: for another Worker's fingerprint.
+  async hashFile({ job, blob }) {
+    const hasher = new wasm_bindgen.Hasher();
+    for await (const { buf } of slices(blob)) hasher.update(buf);
+    const hex = hasher.hex();
+    hasher.free();
     self.postMessage({ job, ok: true, result: hex });
   },
   // The whole calibration of another Worker's screen: its null tables at `ns`, then the power
@@ -372,9 +353,10 @@ const handlers = {
     const r = wasm_bindgen.powerShare(options, ns, tables, inputs);
     self.postMessage({ job, ok: true, powers: r, ms: performance.now() - t0 }, [r.buffer]);
   },
-  async exportSuppliers({ id, fileName }) { post({ id, ok: true, value: session.suppliersCsv(fileName) }); },
-  async exportPull({ id, items, fileName }) { post({ id, ok: true, value: session.pullCsv(items, fileName) }); },
-  async exportTrial({ id, format, fileName }) { post({ id, ok: true, value: session.trialExport(format, fileName) }); },
+  // exports carry the file's fingerprint: they wait for it
+  async exportSuppliers({ id, fileName }) { await fingerprintDone; post({ id, ok: true, value: session.suppliersCsv(fileName) }); },
+  async exportPull({ id, items, fileName }) { await fingerprintDone; post({ id, ok: true, value: session.pullCsv(items, fileName) }); },
+  async exportTrial({ id, format, fileName }) { await fingerprintDone; post({ id, ok: true, value: session.trialExport(format, fileName) }); },
   async watch({ id, settings }) { post({ id, ok: true, value: session.watch(settings || {}) }); },
   async trial({ id, settings }) { return runTrial(id, settings); },
   async detail({ id, supplier }) { post({ id, ok: true, value: session.supplierDetail(supplier) }); },

@@ -116,10 +116,12 @@ test('Cancel while a file is read, then another ledger opens with the same numbe
   const demo = async () => {
     await page.click('#demo');
     await page.waitForSelector('body[data-loaded="yes"]', { timeout: 120_000 });
+    await page.waitForFunction(() => window.digitdrift.sha256); // computed after the results are shown
     return page.evaluate(() => ({ rows: window.digitdrift.report.rows, sha256: window.digitdrift.sha256, mc: window.digitdrift.report.suppliers.map((s) => [s.name, s.first_two.mc_p_value, s.invoices_needed]) }));
   };
-  // The fingerprint is hashed by the helper Worker from the chunks the page reads (1 MiB each):
-  // it must be Node's SHA-256 of the same bytes (the demo ledger is about 10 MB).
+  // The fingerprint is hashed by the helper Worker, which reads the file again in 1 MiB slices
+  // once the results are shown: it must be Node's SHA-256 of the same bytes (the demo ledger
+  // is about 10 MB).
   const sha = (bytes) => createHash('sha256').update(bytes).digest('hex');
   const demoSha = sha(readFileSync(new URL('../../demo-files/heathervale-vet-ledger.csv', import.meta.url)));
   const reference = await demo();
@@ -144,6 +146,7 @@ test('Cancel while a file is read, then another ledger opens with the same numbe
   await page.waitForSelector('#map-go');
   await page.click('#map-go');
   await page.waitForSelector('body[data-loaded="yes"]', { timeout: 120_000 });
+  await page.waitForFunction(() => window.digitdrift.sha256);
   assert.equal(await page.evaluate(() => window.digitdrift.sha256), sha(readFileSync(file)));
   assert.deepEqual(networkRequests(requests), []);
   assert.deepEqual(errors, []);

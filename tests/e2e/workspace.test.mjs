@@ -68,6 +68,8 @@ test('hostile names stay text; exports neutralised and identical; paper fingerpr
   // Working paper.
   await page.click('#nav a[data-view="paper"]');
   await page.waitForSelector('#paper-params');
+  // the fingerprint is computed after the results are shown and put on the paper when in
+  await page.waitForFunction(() => !/being computed/.test(document.querySelector('#paper-params').textContent));
   const params = await page.$eval('#paper-params', (t) => t.textContent);
   assert.ok(params.includes(sha), 'SHA-256 on the working paper matches node:crypto');
   assert.match(await page.$eval('#paper-results', (t) => t.textContent), /Checked three documents/);
