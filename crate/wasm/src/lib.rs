@@ -133,13 +133,7 @@ fn screen_summary(rep: &report::ScreenReport) -> Result<JsValue, JsValue> {
     }
     slim(&mut v["whole_file"]);
     slim(&mut v["credit_notes"]);
-    to_js_by_text(&v)
-}
-
-/// A large value as a JS value by way of JSON text and the engine's own `JSON.parse` (one
-/// string across, instead of one call into JS per field and element).
-fn to_js_by_text(v: &serde_json::Value) -> Result<JsValue, JsValue> {
-    js_sys::JSON::parse(&serde_json::to_string(v).map_err(err)?)
+    to_js(&v)
 }
 
 /// Null tables at `ns` for `sims` simulations and `seed` (the second Worker's share of a
