@@ -19,9 +19,47 @@ async function demoBlob(b64) {
   return new Blob(parts, { type: 'text/csv' });
 }
 
-// The blob's 1 MiB slices in order; the next slice is already being read while the caller
-// works on the current one (at most two slices in memory).
+// The blob's bytes in chunks of 1 MiB, in order, the next one already being read while the
+// caller works on the current one (valid until the caller asks for the next): read from the
+// blob's byte stream into two buffers used in turn (no new buffer per chunk, so no garbage that
+// the tab holds until a collection), or by 1 MiB File.slice reads where a byte stream is not
+// offered.
 async function* slices(blob) {
+  let reader = null;
+  try { reader = blob.stream().getReader({ mode: 'byob' }); } catch (e) { reader = null; }
+  if (!reader) { yield* sliceReads(blob); return; }
+  try {
+    let spare = new ArrayBuffer(CHUNK);
+    let pending = fill(reader, new ArrayBuffer(CHUNK));
+    let at = 0;
+    for (;;) {
+      const { view, done } = await pending;
+      if (!view.byteLength) break;
+      pending = done ? Promise.resolve({ view: new Uint8Array(0), done: true }) : fill(reader, spare);
+      at += view.byteLength;
+      yield { buf: view, end: at };
+      spare = view.buffer;
+    }
+  } finally {
+    reader.cancel().catch(() => {});
+  }
+}
+
+// Fill `buffer` from a BYOB reader: {view of the bytes read, done: the stream ended}.
+async function fill(reader, buffer) {
+  let off = 0;
+  while (off < buffer.byteLength) {
+    const { done, value } = await reader.read(new Uint8Array(buffer, off, buffer.byteLength - off));
+    buffer = value ? value.buffer : new ArrayBuffer(CHUNK); // the buffer comes back with the bytes
+    if (done) return { view: new Uint8Array(buffer, 0, off), done: true };
+    off += value.byteLength;
+  }
+  return { view: new Uint8Array(buffer, 0, off), done: false };
+}
+
+// The blob's 1 MiB slices by File.slice reads, the next already being read (at most two
+// slices in memory).
+async function* sliceReads(blob) {
   const read = (at) => blob.slice(at, Math.min(blob.size, at + CHUNK)).arrayBuffer();
   let pending = blob.size > 0 ? read(0) : null;
   for (let at = 0; at < blob.size;) {
