@@ -1,5 +1,5 @@
 // Browser benchmark: opens dist/digitdrift.html in headless Chromium, drops each given ledger
-// (the page reads it through the Worker's chunked File.slice intake), and prints the Worker's wall
+// (the page's Worker reads it in 1 MiB chunks from its byte stream), and prints the Worker's wall
 // time for intake + full screen (digit tests and calibration), the page's JS heap, and the peak
 // resident memory of the tab's renderer process (VmHWM; it holds the Worker, its wasm linear
 // memory and the JS heaps), found among this process's own descendants only, and the size of the
@@ -9,10 +9,10 @@
 // Intake-only mode: node bench/browser.mjs --intake-only [--runs N] FILE...
 // For each file, times intake alone natively (examples/intake_speed: the file in memory, fed in
 // 1 MiB chunks) and in Chromium (a Worker started from the page's own glue, worker and wasm
-// blocks, reading the File through its 1 MiB File.slice chunks into the core's intake: no
-// fingerprint, digit tests or calibration), best of N runs each (default 3), and prints MB/s
-// side by side with the Chromium/native ratio; in Chromium both with the next slice read ahead
-// (as the page does) and with slices read in turn. Build first: bash scripts/build-web.sh &&
+// blocks, reading the File in 1 MiB chunks into the core's intake: no fingerprint, digit tests
+// or calibration), best of N runs each (default 3), and prints MB/s side by side with the
+// Chromium/native ratio; in Chromium both as the page reads (its byte stream, the next chunk
+// read ahead) and with File.slice reads in turn. Build first: bash scripts/build-web.sh &&
 // cargo build --release -p digitdrift-core --example intake_speed
 import { launch, openPage } from '../tests/e2e/browser.mjs';
 import { statSync, readFileSync, readdirSync } from 'node:fs';
@@ -94,8 +94,8 @@ async function intakeOnly(files, runs) {
     const secs = (runs) => runs.map((w) => (w.ms / 1000).toFixed(3)).join(' ');
     console.log(`intake only, ${file}: ${mb.toFixed(1)} MB, ${native.rows_read} rows read (${native.rows_analysed} analysed); best of ${runs}`);
     console.log(`  native                           ${native.native_mb_per_s.toFixed(1).padStart(7)} MB/s  (${native.native_seconds.toFixed(3)} s)`);
-    console.log(`  chromium, next slice read ahead  ${chromium_mb_per_s.toFixed(1).padStart(7)} MB/s  (${(best.ms / 1000).toFixed(3)} s wall in the Worker, ${(best.feedMs / 1000).toFixed(3)} s of it in intake; runs ${secs(web.ahead)} s)`);
-    console.log(`  chromium, slices read in turn    ${rate(inTurn.ms).toFixed(1).padStart(7)} MB/s  (${(inTurn.ms / 1000).toFixed(3)} s wall in the Worker, ${(inTurn.feedMs / 1000).toFixed(3)} s of it in intake; runs ${secs(web.inTurn)} s)`);
+    console.log(`  chromium, as the page reads      ${chromium_mb_per_s.toFixed(1).padStart(7)} MB/s  (${(best.ms / 1000).toFixed(3)} s wall in the Worker, ${(best.feedMs / 1000).toFixed(3)} s of it in intake; runs ${secs(web.ahead)} s)`);
+    console.log(`  chromium, File.slice in turn     ${rate(inTurn.ms).toFixed(1).padStart(7)} MB/s  (${(inTurn.ms / 1000).toFixed(3)} s wall in the Worker, ${(inTurn.feedMs / 1000).toFixed(3)} s of it in intake; runs ${secs(web.inTurn)} s)`);
     console.log(`  chromium (read ahead)/native throughput ratio ${(chromium_mb_per_s / native.native_mb_per_s).toFixed(2)}; read ahead/in turn ${(inTurn.ms / best.ms).toFixed(2)}`);
     // Linear memory only grows: after the runs it is the peak of one intake (0 from a page
     // whose Worker does not report it).
