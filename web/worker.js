@@ -148,6 +148,7 @@ function fingerprintLater(id, blob) {
 // an earlier job was left behind (a Cancel while the file was read). If the helper cannot
 // start or fails, this Worker does the missing work itself: the same numbers, later.
 let isHelper = false;
+const shareStops = new Map(); // in the helper: power job -> where to stop (powersStop)
 let wasmModule = null;
 let helper = null; // { worker, ready: boolean, started: Promise<boolean>, jobs: Map(id -> resolver) }
 let jobIds = 0;
@@ -158,21 +159,24 @@ function startHelper() {
   if (helper || isHelper || !wasmModule || !helperUrl) return helper;
   let w;
   try { w = new Worker(helperUrl); } catch (e) { return null; }
-  const h = { worker: w, ready: false, jobs: new Map() };
+  const h = { worker: w, ready: false, jobs: new Map(), shares: new Map() };
   const fail = () => {
     if (helper === h) helper = null;
     w.terminate();
     for (const j of h.jobs.values()) j(null);
     h.jobs.clear();
+    h.shares.clear();
     return false;
   };
   h.started = new Promise((resolve) => {
     w.onmessage = (ev) => {
       const m = ev.data;
       if ('ready' in m) { h.ready = m.ready; resolve(m.ready || fail()); return; }
+      if (m.share) { const f = h.shares.get(m.job); if (f) f(m); return; }
       if (m.ms !== undefined) h.lastMs = m.ms;
       const j = h.jobs.get(m.job);
       h.jobs.delete(m.job);
+      h.shares.delete(m.job);
       if (j) j(m.ok ? (m.result || m.tables || m.powers) : null);
       if (!m.ok) fail();
     };
@@ -191,6 +195,7 @@ function stopHelper() {
   h.worker.terminate();
   for (const j of h.jobs.values()) j(null);
   h.jobs.clear();
+  h.shares.clear();
 }
 
 // A job for the helper: its answer (tables or power results), or null (helper failed or
@@ -206,8 +211,21 @@ function helperJob(h, msg, transfer) {
   return h.started.then((ok) => (ok && helper === h ? send() : null));
 }
 const helperTables = (h, plan) => helperJob(h, { cmd: 'tables', ns: plan.theirs, sims: plan.sims, seed: plan.seed });
-const helperTablesPower = (h, plan) => helperJob(h, { cmd: 'tablesPower', ns: plan.theirs, sims: plan.sims, seed: plan.seed, options: plan.share.options, inputs: plan.share.inputs },
-  [plan.share.inputs.buffer]);
+// The power work of a screen's suppliers (`share` of screenPlan(settings, true), costliest
+// first) shared with the helper: it takes them from the front, POWER_CHUNK at a time, telling
+// which it has claimed (`onShare({share: 'claimed', at})`) and posting each chunk's results
+// (`onShare({share: 'powers', from, powers})`), and stops where told (`powersStop`). Returns
+// {job, done} (done: the helper's last answer, null if it failed), or null.
+const POWER_CHUNK = 4;
+const INPUT_WIDTH = 92; // a supplier's flat calibration input: amount min, max, 90 counts
+function helperPowersShared(h, share, onShare) {
+  if (!(h.ready && helper === h)) return null;
+  const job = ++jobIds;
+  const done = new Promise((resolve) => { h.jobs.set(job, resolve); });
+  h.shares.set(job, onShare);
+  h.worker.postMessage({ cmd: 'powers', job, options: share.options, inputs: share.inputs, chunk: POWER_CHUNK }, [share.inputs.buffer]);
+  return { job, done };
+}
 const helperPowers = (h, share) => helperJob(h, { cmd: 'power', options: share.options, ns: share.ns, tables: share.tables, inputs: share.inputs },
   [share.ns.buffer, share.tables.buffer, share.inputs.buffer]);
 
@@ -228,18 +246,22 @@ async function screenSplit(settings, cancellable) {
   const h = plan.theirs.length && helperWanted ? startHelper() : null;
   const stop = () => { session.screenAbort(); stopHelper(); if (helperWanted) startHelper(); return null; };
   if (h && plan.share) {
-    const job = helperTablesPower(h, plan);
+    // the helper: every table, then the power work from the costliest supplier on; here: the
+    // batteries, then the power work from the cheapest supplier on, until the two meet
+    const count = plan.share.count;
+    let claimed = 0;
+    const chunks = [];
+    const tablesJob = helperTables(h, plan);
+    const shared = helperPowersShared(h, plan.share, (m) => { if (m.share === 'claimed') claimed = Math.max(claimed, m.at); else chunks.push(m); });
+    const race = (p) => Promise.race([p, new Promise((r) => { onCancel = () => r(null); })]).finally(() => { onCancel = null; });
     session.screenBatteries();
     const t1 = performance.now();
     session.screenWhole(); // the whole file's battery too, while the helper works
     const tw = performance.now();
-    const got = await Promise.race([job, new Promise((r) => { onCancel = () => r(null); })]);
-    onCancel = null;
+    const tables = await race(tablesJob);
     if (cancellable && cancelled) return stop();
-    if (got) {
-      session.insertTables(plan.theirs, got.tables);
-      session.insertQuickPowers(got.powers);
-    } else {
+    if (tables) session.insertTables(plan.theirs, tables);
+    else {
       // the helper failed: its work is done here, the same numbers later
       stopHelper();
       for (const n of plan.theirs) {
@@ -248,11 +270,27 @@ async function screenSplit(settings, cancellable) {
         if (cancellable && cancelled) return stop();
       }
     }
+    const tt = performance.now();
+    let back = count;
+    let helped = false;
+    if (tables && shared) {
+      while (back - 1 >= claimed) {
+        back--;
+        h.worker.postMessage({ cmd: 'powersStop', job: shared.job, at: back });
+        session.powerQuick(back);
+        await yieldNow(); // the helper's claims come in between
+        if (cancellable && cancelled) return stop();
+      }
+      helped = !!(await race(shared.done));
+      if (cancellable && cancelled) return stop();
+    }
+    // every chunk the helper finished goes in (after a failure too); screenFinish does the rest
+    for (const m of chunks) session.insertQuickPowersAt(m.from, m.powers);
     const t3 = performance.now();
     const screen = session.screenFinish();
     const t4 = performance.now();
-    return { screen, workers: got ? 2 : 1, powerWorkers: got ? 2 : 1,
-      timing: { batteries: t1 - t0, tables: 0, power: t3 - t1, finish: t4 - t3, mine: 0, theirs: plan.theirs.length, powerTheirs: got ? plan.share.count : 0, helperPowerMs: h.lastMs, planMs: 0, wholeMs: tw - t1 } };
+    return { screen, workers: tables ? 2 : 1, powerWorkers: helped && chunks.length ? 2 : 1,
+      timing: { batteries: t1 - t0, tables: tt - tw, power: t3 - tt, finish: t4 - t3, mine: count - back, theirs: plan.theirs.length, powerTheirs: helped ? back : 0, helperPowerMs: h.lastMs, planMs: 0, wholeMs: tw - t1 } };
   }
   const theirs = h ? helperTables(h, plan) : null; // the helper simulates while the batteries run here
   session.screenBatteries();
@@ -378,14 +416,25 @@ const handlers = {
     hasher.free();
     self.postMessage({ job, ok: true, result: hex });
   },
-  // The whole calibration of another Worker's screen: its null tables at `ns`, then the power
-  // work of every supplier (`inputs`, flat) with those and the tables held here.
-  async tablesPower({ job, ns, sims, seed, options, inputs }) {
+  // The power work of another Worker's suppliers (flat `inputs`, costliest first), `chunk` at a
+  // time from the front, with a yield between chunks so that `powersStop` gets in: see
+  // helperPowersShared.
+  async powers({ job, options, inputs, chunk }) {
     const t0 = performance.now();
-    const tables = wasm_bindgen.nullTables(new Float64Array(ns), sims, seed);
-    const powers = wasm_bindgen.powerShare(options, new Float64Array(0), new Float64Array(0), inputs);
-    self.postMessage({ job, ok: true, result: { tables, powers }, ms: performance.now() - t0 }, [tables.buffer, powers.buffer]);
+    shareStops.set(job, inputs.length / INPUT_WIDTH);
+    let i = 0;
+    while (i < shareStops.get(job)) {
+      const end = Math.min(i + chunk, shareStops.get(job));
+      self.postMessage({ job, share: 'claimed', at: end });
+      const r = wasm_bindgen.powerChunk(options, inputs.subarray(i * INPUT_WIDTH, end * INPUT_WIDTH));
+      self.postMessage({ job, share: 'powers', from: i, powers: r }, [r.buffer]);
+      i = end;
+      await yieldNow();
+    }
+    shareStops.delete(job);
+    self.postMessage({ job, ok: true, result: { done: i }, ms: performance.now() - t0 });
   },
+  async powersStop({ job, at }) { if (shareStops.has(job)) shareStops.set(job, Math.min(shareStops.get(job), at)); },
   async power({ job, options, ns, tables, inputs }) {
     const t0 = performance.now();
     const r = wasm_bindgen.powerShare(options, ns, tables, inputs);

@@ -265,6 +265,45 @@ impl Default for Hasher {
     }
 }
 
+thread_local! {
+    /// The helper Worker's calibrator for `powerChunk`, kept between calls (its options, the
+    /// tables it was given and its power cache).
+    static HELPER_CAL: std::cell::RefCell<Option<Calibrator>> = const { std::cell::RefCell::new(None) };
+}
+
+/// The helper Worker's power work for some suppliers (`inputs`, flat) with the calibration
+/// `options`, from the null tables it holds (`nullTables`; any other is simulated here): the
+/// results flat, as `PowerResult::push_flat`. One calibrator is kept between calls, so a screen's
+/// suppliers can come a few at a time.
+#[wasm_bindgen(js_name = powerChunk)]
+pub fn power_chunk(options: JsValue, inputs: &[f64]) -> Result<Vec<f64>, JsValue> {
+    let o: CalibrationOptions = serde_wasm_bindgen::from_value(options).map_err(err)?;
+    let inputs = inputs_from_flat(inputs)?;
+    HELPER_CAL.with(|hc| {
+        let mut hc = hc.borrow_mut();
+        if hc.as_ref().is_none_or(|c| c.options() != &o) {
+            *hc = Some(Calibrator::new(o.clone()));
+        }
+        let cal = hc.as_mut().expect("calibrator");
+        HELPER_TABLES.with(|h| {
+            if let Some((s, sd, ts)) = h.borrow().as_ref() {
+                if *s == o.sims && *sd == o.seed {
+                    for t in ts {
+                        if cal.cached_table(t.n).is_none() {
+                            cal.insert_table(t.clone());
+                        }
+                    }
+                }
+            }
+        });
+        let mut out = Vec::new();
+        for r in cal.powers(&inputs, 1) {
+            r.push_flat(&mut out);
+        }
+        Ok(out)
+    })
+}
+
 #[wasm_bindgen(js_name = powerShare)]
 pub fn power_share(options: JsValue, ns: &[f64], flat: &[f64], inputs: &[f64]) -> Result<Vec<f64>, JsValue> {
     let o: CalibrationOptions = serde_wasm_bindgen::from_value(options).map_err(err)?;
@@ -351,11 +390,11 @@ impl Session {
     /// `theirs` for `nullTables` in the other Worker; both empty when calibration is off). Then
     /// `screenBatteries` (while the other Worker simulates), ..., `screenFinish`.
     ///
-    /// `together`: the other Worker takes the whole calibration instead: every table
-    /// (`mine` empty) and then the power work of every supplier, from the quick pass's inputs
-    /// (`share`: `{options, inputs, count}` for `tablesPower`; null when calibration is off),
-    /// while this Worker makes every battery; its results go in with `insertTables` and
-    /// `insertQuickPowers`.
+    /// `together`: the other Worker takes every table (`mine` empty) and then the power work
+    /// of the suppliers from the quick pass's inputs, costliest first (`share`: `{options,
+    /// inputs, count}` for `powerChunk`; null when calibration is off), while this Worker makes
+    /// every battery and then takes suppliers from the other end (`powerQuick`) until the two
+    /// meet; the other Worker's results go in with `insertTables` and `insertQuickPowersAt`.
     #[wasm_bindgen(js_name = screenPlan)]
     pub fn screen_plan(&mut self, settings: JsValue, together: Option<bool>) -> Result<JsValue, JsValue> {
         let together = together.unwrap_or(false);
@@ -387,7 +426,9 @@ impl Session {
             _ => (vec![Vec::new(), Vec::new()], 0, 0),
         };
         let out = to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "sims": sims, "seed": seed, "share": null}))?;
-        let quick = quick.map(|q| q.0).unwrap_or_default();
+        // the power work is shared costliest first (see `powerQuick`)
+        let mut quick = quick.map(|q| q.0).unwrap_or_default();
+        quick.sort_by_key(|x| std::cmp::Reverse(x.first_two_counts.iter().sum::<u64>()));
         if let (true, Some(c)) = (together, cal.as_ref()) {
             let share = js_sys::Object::new();
             js_sys::Reflect::set(&share, &"options".into(), &to_js(c.options())?)?;
@@ -500,14 +541,28 @@ impl Session {
         Ok(p.mine.len() as u32)
     }
 
-    /// Put the other Worker's power results for every supplier (`tablesPower` with
-    /// `screenPlan(settings, true)`'s `share`) in.
-    #[wasm_bindgen(js_name = insertQuickPowers)]
-    pub fn insert_quick_powers(&mut self, flat: &[f64]) -> Result<(), JsValue> {
+    /// The power work of the quick pass's supplier `i` (`screenPlan(settings, true)`'s order)
+    /// here, cached for `screenFinish`.
+    #[wasm_bindgen(js_name = powerQuick)]
+    pub fn power_quick(&mut self, i: u32) -> Result<(), JsValue> {
+        let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
+        if let (Some(c), Some(input)) = (p.cal.as_mut(), p.quick.get(i as usize)) {
+            c.power_of(input);
+        }
+        Ok(())
+    }
+
+    /// Put the other Worker's power results (`powerChunk`) for the quick pass's suppliers
+    /// `from`, `from + 1`, ... in.
+    #[wasm_bindgen(js_name = insertQuickPowersAt)]
+    pub fn insert_quick_powers_at(&mut self, from: u32, flat: &[f64]) -> Result<(), JsValue> {
         let p = self.pending.as_mut().ok_or_else(|| err("no screen planned"))?;
         let Some(c) = p.cal.as_mut() else { return Ok(()) };
         let mut at = 0;
-        for input in &p.quick {
+        for input in p.quick.iter().skip(from as usize) {
+            if at == flat.len() {
+                break;
+            }
             let r = PowerResult::read_flat(flat, &mut at).ok_or_else(|| err("power results too short"))?;
             c.insert_power(input, r);
         }
