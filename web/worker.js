@@ -50,7 +50,11 @@ async function fill(reader, buffer) {
   let off = 0;
   while (off < buffer.byteLength) {
     const { done, value } = await reader.read(new Uint8Array(buffer, off, buffer.byteLength - off));
-    buffer = value ? value.buffer : new ArrayBuffer(CHUNK); // the buffer comes back with the bytes
+    if (!value) { // only after a cancel: the bytes read into the buffer went with it
+      if (off) throw new Error('the file could not be read to its end');
+      return { view: new Uint8Array(0), done: true };
+    }
+    buffer = value.buffer; // the buffer comes back with the bytes
     if (done) return { view: new Uint8Array(buffer, 0, off), done: true };
     off += value.byteLength;
   }
