@@ -8,6 +8,8 @@ use crate::intake::IntakeInfo;
 use crate::ledger::{Accounting, Invoice, Ledger};
 use crate::Amount;
 use serde::Serialize;
+use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
+use std::sync::{Condvar, Mutex};
 
 #[derive(Clone, Debug)]
 pub struct ScreenOptions {
@@ -313,26 +315,69 @@ pub fn screen_tables(cal: &Calibrator, inputs: &[SupplierInput], invoices: &[u64
 /// and the credit notes'), which need memory; the other, which needs next to none, the null
 /// tables and the power work for each supplier, from the quick pass's inputs
 /// ([`quick_calibration_inputs`]; the calibration after the batteries finds them cached).
-/// Every number is the same as on one thread (tables and power results are seeded by their
-/// own size and path).
+/// Once its batteries are done, the first thread takes suppliers' power work too, with a copy
+/// of the calibrator (the batteries' memory is free by then). Every number is the same as on
+/// one thread (tables and power results are seeded by their own size and path).
 pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions, mut cal: Option<Calibrator>) -> ScreenReport {
     if cfg!(target_arch = "wasm32") {
         return finish_screen(ledger, info, min_amount, opts, supplier_batteries(ledger, opts), cal.as_mut());
     }
     let quick = cal.as_ref().map(|_| quick_calibration_inputs(ledger));
-    let ((Batteries { suppliers, counts, .. }, whole, credits), mut cal) = std::thread::scope(|sc| {
-        let calibration = sc.spawn(move || {
-            if let (Some(c), Some((inputs, invoices))) = (cal.as_mut(), quick) {
-                let need = screen_tables(c, &inputs, &invoices);
+    // The power work, costliest supplier first, taken one at a time by the calibration thread
+    // after the tables and by the battery thread once its batteries are done (with a copy of
+    // the calibrator, asked for then: the copy holds the tables).
+    let order: Vec<usize> = quick.as_ref().map_or_else(Vec::new, |(inputs, _)| {
+        let mut o: Vec<usize> = (0..inputs.len()).collect();
+        o.sort_by_key(|&i| std::cmp::Reverse(inputs[i].first_two_counts.iter().sum::<u64>()));
+        o
+    });
+    let next = AtomicUsize::new(0);
+    let copy_wanted = AtomicBool::new(false);
+    let copy: (Mutex<Option<Option<Calibrator>>>, Condvar) = (Mutex::new(None), Condvar::new());
+    let inputs: &[SupplierInput] = quick.as_ref().map_or(&[], |q| &q.0);
+    let ((Batteries { suppliers, counts, .. }, whole, credits, theirs), mut cal) = std::thread::scope(|sc| {
+        let calibration = sc.spawn(|| {
+            let give = |c: Option<Calibrator>| {
+                *copy.0.lock().expect("copy") = Some(c);
+                copy.1.notify_all();
+            };
+            if let (Some(c), Some((_, invoices))) = (cal.as_mut(), quick.as_ref()) {
+                let need = screen_tables(c, inputs, invoices);
                 c.prepare(&need, 1);
-                c.powers(&inputs, 1);
+                loop {
+                    if copy_wanted.swap(false, Ordering::AcqRel) {
+                        give(Some(c.for_power_thread()));
+                    }
+                    let k = next.fetch_add(1, Ordering::Relaxed);
+                    let Some(&i) = order.get(k) else { break };
+                    c.power_of(&inputs[i]);
+                }
             }
+            give(None); // nothing (more) to share
             cal
         });
         let mut b = supplier_batteries(ledger, opts);
         let (whole, credits) = whole_file_and_credits(ledger, opts, b.file_duplicates.take());
-        ((b, whole, credits), calibration.join().expect("calibration thread"))
+        // help with the power work if any is left
+        let mut theirs = Vec::new();
+        if next.load(Ordering::Relaxed) < order.len() {
+            copy_wanted.store(true, Ordering::Release);
+            let mut g = copy.0.lock().expect("copy");
+            while g.is_none() {
+                g = copy.1.wait(g).expect("copy");
+            }
+            if let Some(Some(mut c)) = g.take() {
+                drop(g);
+                theirs = c.powers_shared(inputs, &order, &next);
+            }
+        }
+        ((b, whole, credits, theirs), calibration.join().expect("calibration thread"))
     });
+    if let Some(c) = cal.as_mut() {
+        for (i, r) in theirs {
+            c.insert_power(&inputs[i], r);
+        }
+    }
     finish_screen_parts(ledger, info, min_amount, opts, suppliers, &counts, cal.as_mut(), whole, credits)
 }
 

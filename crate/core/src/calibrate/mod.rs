@@ -42,6 +42,7 @@ use crate::benford;
 use crate::rng::DetRng;
 use serde::{Deserialize, Serialize};
 use std::collections::HashMap;
+use std::sync::Arc;
 
 /// Number of first-two-digit bins (10..=99).
 pub const BINS: usize = 90;
@@ -825,7 +826,8 @@ pub struct LedgerCalibration {
 pub struct Calibrator {
     opts: CalibrationOptions,
     benford: Categorical,
-    tables: HashMap<u64, NullTable>,
+    /// Shared (`Arc`): a copy for another thread's power work holds the same tables.
+    tables: HashMap<u64, Arc<NullTable>>,
     threads: usize,
     /// Honest parts of the even-spread power paths, shared by every supplier's curve.
     honest: Option<power::HonestPaths>,
@@ -865,17 +867,17 @@ impl Calibrator {
     /// The null table at exactly n (simulated on first use, then cached).
     pub fn table(&mut self, n: u64) -> &NullTable {
         let (b, sims, seed) = (&self.benford, self.opts.sims, self.opts.seed);
-        self.tables.entry(n).or_insert_with(|| NullTable::simulate(b, n, sims, seed))
+        self.tables.entry(n).or_insert_with(|| Arc::new(NullTable::simulate(b, n, sims, seed)))
     }
 
     /// The cached table at exactly n, if simulated already.
     pub fn cached_table(&self, n: u64) -> Option<&NullTable> {
-        self.tables.get(&n)
+        self.tables.get(&n).map(|t| &**t)
     }
 
     /// Every cached table, in no particular order.
     pub fn tables(&self) -> impl Iterator<Item = &NullTable> {
-        self.tables.values()
+        self.tables.values().map(|t| &**t)
     }
 
     /// Number of cached tables.
@@ -910,7 +912,7 @@ impl Calibrator {
     /// table of this calibrator's seed and sims at `t.n`; panics on a different number of sims.
     pub fn insert_table(&mut self, t: NullTable) {
         assert_eq!(t.sims(), self.opts.sims as usize, "table with this calibrator's sims");
-        self.tables.insert(t.n, t);
+        self.tables.insert(t.n, Arc::new(t));
     }
 
     /// Simulate every missing table for suppliers of sizes `ns` at once, over up to `threads`
@@ -918,7 +920,7 @@ impl Calibrator {
     pub fn prepare(&mut self, ns: &[u64], threads: usize) {
         let need = self.missing_tables(ns);
         for t in NullTable::simulate_many(&self.benford, &need, self.opts.sims, self.opts.seed, threads) {
-            self.tables.insert(t.n, t);
+            self.tables.insert(t.n, Arc::new(t));
         }
     }
 
@@ -1109,7 +1111,7 @@ impl Calibrator {
 
     /// Every cached table (e.g. to keep them for the next screen with the same seed and sims).
     pub fn take_tables(&mut self) -> Vec<NullTable> {
-        let mut v: Vec<NullTable> = self.tables.drain().map(|(_, t)| t).collect();
+        let mut v: Vec<NullTable> = self.tables.drain().map(|(_, t)| Arc::try_unwrap(t).unwrap_or_else(|t| (*t).clone())).collect();
         v.sort_by_key(|t| t.n);
         v
     }

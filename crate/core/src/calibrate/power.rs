@@ -348,6 +348,30 @@ impl Calibrator {
         inputs.iter().map(|inp| self.power_of(inp)).collect()
     }
 
+    /// Power work shared between threads: each takes the next supplier of `order` (indices
+    /// into `inputs`, e.g. the costliest first) from `next` until none is left, and returns
+    /// what it did as (index, result); the results are also cached here. Every result depends
+    /// only on the options, the null tables and the supplier, so any sharing gives the same
+    /// numbers.
+    pub fn powers_shared(&mut self, inputs: &[SupplierInput], order: &[usize], next: &std::sync::atomic::AtomicUsize) -> Vec<(usize, PowerResult)> {
+        let mut done = Vec::new();
+        loop {
+            let k = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+            let Some(&i) = order.get(k) else { break };
+            done.push((i, self.power_of(&inputs[i])));
+        }
+        done
+    }
+
+    /// A calibrator for another thread's share of the power work ([`Calibrator::powers_shared`]):
+    /// the options, the null tables and the honest paths of this one.
+    pub fn for_power_thread(&mut self) -> Calibrator {
+        if self.opts.deviation_model == DeviationModel::EvenSpread {
+            self.ensure_honest();
+        }
+        self.clone_for_power()
+    }
+
     /// The honest paths for this calibrator's options, created if missing (not extended).
     pub(super) fn ensure_honest(&mut self) -> &mut HonestPaths {
         let sims = self.opts.power_sims.max(1) as usize;
