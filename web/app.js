@@ -40,7 +40,10 @@
   const chartsReady = wasm_bindgen({ module_or_path: wasmBytes }).then(() => { $('version').textContent = wasm_bindgen.version(); });
   const workerSrc = $('dd-glue').textContent + '\n' + $('dd-worker').textContent;
   const worker = new Worker(URL.createObjectURL(new Blob([workerSrc], { type: 'text/javascript' })));
-  worker.postMessage({ cmd: 'init', wasm: wasmBytes.slice().buffer, src: workerSrc }); // src: for its helper Worker
+  // src: for its helper Worker. `?test-helper-fails=tables|powers` (tests only): the helper is
+  // stopped in that phase of a screen's calibration, to check that the numbers stay the same.
+  const helperFails = new URLSearchParams(location.search).get('test-helper-fails');
+  worker.postMessage({ cmd: 'init', wasm: wasmBytes.slice().buffer, src: workerSrc, helperFails });
   let nextId = 1;
   const pending = new Map();
   worker.onmessage = (ev) => {

@@ -152,7 +152,12 @@ function fingerprintLater(id, blob) {
 // an earlier job was left behind (a Cancel while the file was read). If the helper cannot
 // start or fails, this Worker does the missing work itself: the same numbers, later.
 let isHelper = false;
-const shareStops = new Map(); // in the helper: power job -> where to stop (powersStop)
+let helperFailsIn = null; // tests only: 'tables' or 'powers' (see app.js)
+// in the helper, per calibrate job: where to stop (tablesStop, powersStop), and the waiter for
+// the other Worker's tables (workerTables)
+const tableStops = new Map();
+const powerStops = new Map();
+const workerTablesIn = new Map();
 let wasmModule = null;
 let helper = null; // { worker, ready: boolean, started: Promise<boolean>, jobs: Map(id -> resolver) }
 let jobIds = 0;
@@ -215,19 +220,22 @@ function helperJob(h, msg, transfer) {
   return h.started.then((ok) => (ok && helper === h ? send() : null));
 }
 const helperTables = (h, plan) => helperJob(h, { cmd: 'tables', ns: plan.theirs, sims: plan.sims, seed: plan.seed });
-// The power work of a screen's suppliers (`share` of screenPlan(settings, true), costliest
-// first) shared with the helper: it takes them from the front, POWER_CHUNK at a time, telling
-// which it has claimed (`onShare({share: 'claimed', at})`) and posting each chunk's results
-// (`onShare({share: 'powers', from, powers})`), and stops where told (`powersStop`). Returns
-// {job, done} (done: the helper's last answer, null if it failed), or null.
+// A screen's calibration shared with the helper by stealing (screenPlan(settings, true)):
+// the helper takes the table items (`plan.items`) from the front, one per call, then the
+// suppliers' power work (`plan.share`, costliest first) POWER_CHUNK at a time; it tells what it
+// has claimed (`onShare({share: 'tclaimed' | 'pclaimed', at})`), posts each result
+// (`{share: 'tables', item, ns, tables}`, `{share: 'powers', from, powers}`) and stops where it
+// is told (`tablesStop`, `powersStop`). If it stopped short of the last table item, it waits for
+// this Worker's tables (`workerTables`) before the power work. Returns {job, done} (done: the
+// helper's last answer, null if it failed), or null.
 const POWER_CHUNK = 4;
 const INPUT_WIDTH = 92; // a supplier's flat calibration input: amount min, max, 90 counts
-function helperPowersShared(h, share, onShare) {
+function helperCalibrate(h, plan, onShare) {
   if (!(h.ready && helper === h)) return null;
   const job = ++jobIds;
   const done = new Promise((resolve) => { h.jobs.set(job, resolve); });
   h.shares.set(job, onShare);
-  h.worker.postMessage({ cmd: 'powers', job, options: share.options, inputs: share.inputs, chunk: POWER_CHUNK }, [share.inputs.buffer]);
+  h.worker.postMessage({ cmd: 'calibrate', job, items: plan.items, sims: plan.sims, seed: plan.seed, options: plan.share.options, inputs: plan.share.inputs, chunk: POWER_CHUNK }, [plan.share.inputs.buffer]);
   return { job, done };
 }
 const helperPowers = (h, share) => helperJob(h, { cmd: 'power', options: share.options, ns: share.ns, tables: share.tables, inputs: share.inputs },
@@ -249,43 +257,64 @@ async function screenSplit(settings, cancellable) {
   const plan = session.screenPlan(settings, !!together);
   const h = plan.theirs.length && helperWanted ? startHelper() : null;
   const stop = () => { session.screenAbort(); stopHelper(); if (helperWanted) startHelper(); return null; };
-  if (h && plan.share) {
-    // the helper: every table, then the power work from the costliest supplier on; here: the
-    // batteries, then the power work from the cheapest supplier on, until the two meet
+  let tClaimed = 0;
+  let pClaimed = 0;
+  const arrived = new Set(); // the helper's table items in the calibrator here
+  const chunks = [];
+  let tablesIn = null; // resolves when the helper's items [0, tablesWanted) are all here
+  let tablesWanted = Infinity;
+  const check = () => { if (tablesIn && [...Array(tablesWanted).keys()].every((k) => arrived.has(k))) { const r = tablesIn; tablesIn = null; r(true); } };
+  const job = h && plan.share ? helperCalibrate(h, plan, (m) => {
+    if (helperFailsIn && m.share === helperFailsIn && helper === h) { stopHelper(); return; } // tests only
+    if (m.share === 'tclaimed') tClaimed = Math.max(tClaimed, m.at);
+    else if (m.share === 'pclaimed') pClaimed = Math.max(pClaimed, m.at);
+    else if (m.share === 'tables') { session.insertTables(m.ns, m.tables); arrived.add(m.item); check(); }
+    else chunks.push(m);
+  }) : null;
+  if (job) {
+    // the helper: table items, then the power work, from the front; here: the batteries,
+    // then table items and power work from the back, until the two meet (each phase)
+    const items = plan.items;
     const count = plan.share.count;
-    let claimed = 0;
-    const chunks = [];
-    const tablesJob = helperTables(h, plan);
-    const shared = helperPowersShared(h, plan.share, (m) => { if (m.share === 'claimed') claimed = Math.max(claimed, m.at); else chunks.push(m); });
     const race = (p) => Promise.race([p, new Promise((r) => { onCancel = () => r(null); })]).finally(() => { onCancel = null; });
     session.screenBatteries();
     const t1 = performance.now();
     session.screenWhole(); // the whole file's battery too, while the helper works
     const tw = performance.now();
-    const tables = await race(tablesJob);
-    if (cancellable && cancelled) return stop();
-    if (tables) session.insertTables(plan.theirs, tables);
-    else {
-      // the helper failed: its work is done here, the same numbers later
-      stopHelper();
-      for (const n of plan.theirs) {
-        session.prepareTables([n]);
-        await yieldNow();
-        if (cancellable && cancelled) return stop();
-      }
+    await yieldNow(); // the helper's news so far
+    let tBack = items.length;
+    while (tBack - 1 >= tClaimed) {
+      tBack--;
+      h.worker.postMessage({ cmd: 'tablesStop', job: job.job, at: tBack });
+      session.prepareTables(items[tBack]);
+      await yieldNow();
+      if (cancellable && cancelled) return stop();
     }
+    const mine = items.slice(tBack).flat();
+    if (tBack < items.length && helper === h) {
+      const flat = session.tablesFlat(mine);
+      h.worker.postMessage({ cmd: 'workerTables', job: job.job, ns: mine, tables: flat, sims: plan.sims, seed: plan.seed }, [flat.buffer]);
+    }
+    // the helper's items [0, tBack) (it may have done some of the last ones here too)
+    tablesWanted = tBack;
+    const all = await race(Promise.race([new Promise((r) => { tablesIn = r; check(); }), job.done.then(() => false)]));
+    if (cancellable && cancelled) return stop();
+    let helped = false;
     const tt = performance.now();
     let back = count;
-    let helped = false;
-    if (tables && shared) {
-      while (back - 1 >= claimed) {
+    if (!all) {
+      // the helper failed: what is missing is simulated here, the same numbers later
+      stopHelper();
+      session.prepareTables(plan.theirs);
+    } else {
+      while (back - 1 >= pClaimed) {
         back--;
-        h.worker.postMessage({ cmd: 'powersStop', job: shared.job, at: back });
+        h.worker.postMessage({ cmd: 'powersStop', job: job.job, at: back });
         session.powerQuick(back);
         await yieldNow(); // the helper's claims come in between
         if (cancellable && cancelled) return stop();
       }
-      helped = !!(await race(shared.done));
+      helped = !!(await race(job.done));
       if (cancellable && cancelled) return stop();
     }
     // every chunk the helper finished goes in (after a failure too); screenFinish does the rest
@@ -293,8 +322,9 @@ async function screenSplit(settings, cancellable) {
     const t3 = performance.now();
     const screen = session.screenFinish();
     const t4 = performance.now();
-    return { screen, workers: tables ? 2 : 1, powerWorkers: helped && chunks.length ? 2 : 1,
-      timing: { batteries: t1 - t0, tables: tt - tw, power: t3 - tt, finish: t4 - t3, mine: count - back, theirs: plan.theirs.length, powerTheirs: helped ? back : 0, helperPowerMs: h.lastMs, planMs: 0, wholeMs: tw - t1 } };
+    return { screen, workers: all && arrived.size ? 2 : 1, powerWorkers: helped && chunks.length ? 2 : 1,
+      timing: { batteries: t1 - t0, wholeMs: tw - t1, tables: tt - tw, power: t3 - tt, finish: t4 - t3, theirs: plan.theirs.length, tablesHere: items.length - tBack,
+        mine: count - back, powerTheirs: helped ? back : 0, helperPowerMs: h.lastMs, planMs: 0 } };
   }
   const theirs = h ? helperTables(h, plan) : null; // the helper simulates while the batteries run here
   session.screenBatteries();
@@ -420,25 +450,45 @@ const handlers = {
     hasher.free();
     self.postMessage({ job, ok: true, result: hex });
   },
-  // The power work of another Worker's suppliers (flat `inputs`, costliest first), `chunk` at a
-  // time from the front, with a yield between chunks so that `powersStop` gets in: see
-  // helperPowersShared.
-  async powers({ job, options, inputs, chunk }) {
+  // Another Worker's calibration, shared by stealing (see helperCalibrate): table items from
+  // the front, one per call, then the power work `chunk` suppliers per call, with a yield
+  // between calls so that the stops get in.
+  async calibrate({ job, items, sims, seed, options, inputs, chunk }) {
     const t0 = performance.now();
-    shareStops.set(job, inputs.length / INPUT_WIDTH);
+    const count = inputs.length / INPUT_WIDTH;
+    const theirs = new Promise((r) => { workerTablesIn.set(job, r); });
+    tableStops.set(job, items.length);
+    powerStops.set(job, count);
     let i = 0;
-    while (i < shareStops.get(job)) {
-      const end = Math.min(i + chunk, shareStops.get(job));
-      self.postMessage({ job, share: 'claimed', at: end });
+    while (i < tableStops.get(job)) {
+      self.postMessage({ job, share: 'tclaimed', at: i + 1 });
+      const t = wasm_bindgen.nullTables(new Float64Array(items[i]), sims, seed);
+      self.postMessage({ job, share: 'tables', item: i, ns: items[i], tables: t }, [t.buffer]);
+      i++;
+      await yieldNow();
+    }
+    if (i < items.length) await theirs; // the other Worker's items, for the power work here
+    workerTablesIn.delete(job);
+    i = 0;
+    while (i < powerStops.get(job)) {
+      const end = Math.min(i + chunk, powerStops.get(job));
+      self.postMessage({ job, share: 'pclaimed', at: end });
       const r = wasm_bindgen.powerChunk(options, inputs.subarray(i * INPUT_WIDTH, end * INPUT_WIDTH));
       self.postMessage({ job, share: 'powers', from: i, powers: r }, [r.buffer]);
       i = end;
       await yieldNow();
     }
-    shareStops.delete(job);
+    tableStops.delete(job);
+    powerStops.delete(job);
     self.postMessage({ job, ok: true, result: { done: i }, ms: performance.now() - t0 });
   },
-  async powersStop({ job, at }) { if (shareStops.has(job)) shareStops.set(job, Math.min(shareStops.get(job), at)); },
+  async tablesStop({ job, at }) { if (tableStops.has(job)) tableStops.set(job, Math.min(tableStops.get(job), at)); },
+  async powersStop({ job, at }) { if (powerStops.has(job)) powerStops.set(job, Math.min(powerStops.get(job), at)); },
+  async workerTables({ job, ns, tables, sims, seed }) {
+    wasm_bindgen.helperHoldTables(new Float64Array(ns), tables, sims, seed);
+    const r = workerTablesIn.get(job);
+    if (r) r();
+  },
   async power({ job, options, ns, tables, inputs }) {
     const t0 = performance.now();
     const r = wasm_bindgen.powerShare(options, ns, tables, inputs);
@@ -484,6 +534,7 @@ self.onmessage = async (ev) => {
     // The page's own glue + worker text: a blob: URL made here (a page-made one cannot be
     // opened from a Worker of a file: page, whose origin is opaque).
     if (m.src) helperUrl = URL.createObjectURL(new Blob([m.src], { type: 'text/javascript' }));
+    helperFailsIn = m.helperFails || null;
     ready = WebAssembly.compile(m.wasm).then(async (mod) => {
       await wasm_bindgen({ module_or_path: mod });
       wasmModule = mod;

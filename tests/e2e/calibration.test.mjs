@@ -6,7 +6,7 @@ import assert from 'node:assert/strict';
 import { execFileSync } from 'node:child_process';
 import { resolve } from 'node:path';
 import { existsSync } from 'node:fs';
-import { launch, openPage, networkRequests, drawnPixels, root, screenshot } from './browser.mjs';
+import { launch, openPage, networkRequests, drawnPixels, root, screenshot, pageUrl } from './browser.mjs';
 
 const demo = process.env.DEMO || resolve(root, 'demo-files', 'heathervale-vet-ledger.csv');
 const cli = process.env.DIGITDRIFT_BIN || resolve(root, 'target', 'release', 'digitdrift');
@@ -47,4 +47,24 @@ test('page (wasm) and CLI (native) agree exactly on calibrated results', { skip:
   await screenshot(page, 'supplier-file');
   assert.deepEqual(networkRequests(requests), []);
   assert.deepEqual(errors, []);
+});
+
+test('the same numbers when the helper Worker stops during the tables or the power work', { skip: !existsSync(cli) && 'release CLI not built' }, async () => {
+  // The page's screening Worker must finish what its helper left undone (a test switch stops
+  // the helper at its first table or first power results) with the same numbers as the CLI.
+  const native = JSON.parse(execFileSync(cli, ['screen', demo, '--format', 'json'], { maxBuffer: 1 << 30 }).toString());
+  const nat = native.suppliers.map((s) => [s.name, s.verdict, s.first_two.mc_p_value, s.calibration.adjusted_p_value, s.invoices_needed, s.calibration.power_full_fabrication]);
+  for (const phase of ['tables', 'powers']) {
+    const { page, requests, errors } = await openPage(browser, { url: pageUrl + '?test-helper-fails=' + phase });
+    await page.click('#demo');
+    await page.waitForSelector('body[data-loaded="yes"]', { timeout: 180_000 });
+    const web = await page.evaluate(() => window.digitdrift.report.suppliers.map((s) => [s.name, s.verdict, s.first_two.mc_p_value, s.calibration.adjusted_p_value, s.invoices_needed, s.calibration.power_full_fabrication]));
+    assert.deepEqual(web, nat, phase);
+    // stopped in the tables: everything was finished here; in the power work: the tables came from both
+    assert.equal(await page.evaluate(() => window.digitdrift.calibrationPowerWorkers), 1, phase);
+    assert.equal(await page.evaluate(() => window.digitdrift.calibrationWorkers), phase === 'tables' ? 1 : 2, phase);
+    assert.deepEqual(networkRequests(requests), []);
+    assert.deepEqual(errors, []);
+    await page.context().close();
+  }
 });

@@ -146,20 +146,26 @@ pub fn null_tables(ns: &[f64], sims: u32, seed: f64) -> Vec<f64> {
     let cat = Categorical::new(&digitdrift_core::benford::first_two());
     let tables = NullTable::simulate_many(&cat, &sizes(ns), sims, seed as u64, 1);
     let out = tables_to_flat(tables.iter());
+    hold_in_helper(sims, seed as u64, tables);
+    out
+}
+
+/// Add tables to the helper's (`HELPER_TABLES`), replacing them if they are for another seed
+/// or number of simulations.
+fn hold_in_helper(sims: u32, seed: u64, tables: Vec<NullTable>) {
     HELPER_TABLES.with(|h| {
         let mut h = h.borrow_mut();
         match h.as_mut() {
-            Some((s, sd, ts)) if *s == sims && *sd == seed as u64 => {
+            Some((s, sd, ts)) if *s == sims && *sd == seed => {
                 for t in tables {
                     if !ts.iter().any(|k| k.n == t.n) {
                         ts.push(t);
                     }
                 }
             }
-            _ => *h = Some((sims, seed as u64, tables)),
+            _ => *h = Some((sims, seed, tables)),
         }
     });
-    out
 }
 
 /// The null tables almost every screen with these settings reads, whatever the ledger
@@ -263,6 +269,14 @@ impl Default for Hasher {
     fn default() -> Self {
         Hasher::new()
     }
+}
+
+/// In the helper Worker: keep null tables simulated by the screening Worker (its share of a
+/// screen's tables, `tablesFlat`) beside its own from `nullTables`, for `powerChunk`.
+#[wasm_bindgen(js_name = helperHoldTables)]
+pub fn helper_hold_tables(ns: &[f64], flat: &[f64], sims: u32, seed: f64) -> Result<(), JsValue> {
+    hold_in_helper(sims, seed as u64, tables_from_flat(ns, flat, sims as usize)?);
+    Ok(())
 }
 
 thread_local! {
@@ -390,11 +404,14 @@ impl Session {
     /// `theirs` for `nullTables` in the other Worker; both empty when calibration is off). Then
     /// `screenBatteries` (while the other Worker simulates), ..., `screenFinish`.
     ///
-    /// `together`: the other Worker takes every table (`mine` empty) and then the power work
-    /// of the suppliers from the quick pass's inputs, costliest first (`share`: `{options,
-    /// inputs, count}` for `powerChunk`; null when calibration is off), while this Worker makes
-    /// every battery and then takes suppliers from the other end (`powerQuick`) until the two
-    /// meet; the other Worker's results go in with `insertTables` and `insertQuickPowersAt`.
+    /// `together`: the tables (`mine` empty, `theirs` all of them, also as `items` to share:
+    /// the ones on the honest paths together, then each other one, cheapest first) and the
+    /// power work of the suppliers from the quick pass's inputs, costliest first (`share`:
+    /// `{options, inputs, count}` for `powerChunk`; null when calibration is off) are shared by
+    /// stealing: the other Worker takes items from the front while this one makes every
+    /// battery, then this one takes them from the back (`prepareTables`, `tablesFlat` for the
+    /// other Worker; `powerQuick`) until the two meet; the other Worker's results go in with
+    /// `insertTables` and `insertQuickPowersAt`.
     #[wasm_bindgen(js_name = screenPlan)]
     pub fn screen_plan(&mut self, settings: JsValue, together: Option<bool>) -> Result<JsValue, JsValue> {
         let together = together.unwrap_or(false);
@@ -425,7 +442,12 @@ impl Session {
             }
             _ => (vec![Vec::new(), Vec::new()], 0, 0),
         };
-        let out = to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "sims": sims, "seed": seed, "share": null}))?;
+        // for sharing the tables by stealing: the ones on the honest paths in one item (about the
+        // cost of the largest), then each other one, cheapest first
+        let (path, own): (Vec<u64>, Vec<u64>) = parts[1].iter().partition(|&&n| digitdrift_core::calibrate::on_path(n));
+        let mut items: Vec<Vec<u64>> = if path.is_empty() { Vec::new() } else { vec![path] };
+        items.extend(own.into_iter().map(|n| vec![n]));
+        let out = to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "items": items, "sims": sims, "seed": seed, "share": null}))?;
         // the power work is shared costliest first (see `powerQuick`)
         let mut quick = quick.map(|q| q.0).unwrap_or_default();
         quick.sort_by_key(|x| std::cmp::Reverse(x.first_two_counts.iter().sum::<u64>()));
@@ -462,6 +484,16 @@ impl Session {
             c.prepare(&sizes(ns), 1);
         }
         Ok(())
+    }
+
+    /// The pending screen's null tables at `ns` (simulated here with `prepareTables`), flat,
+    /// for the other Worker (`helperHoldTables`).
+    #[wasm_bindgen(js_name = tablesFlat)]
+    pub fn tables_flat(&self, ns: &[f64]) -> Result<Vec<f64>, JsValue> {
+        let p = self.pending.as_ref().ok_or_else(|| err("no screen planned"))?;
+        let Some(c) = p.cal.as_ref() else { return Ok(Vec::new()) };
+        let ts: Vec<&NullTable> = sizes(ns).iter().map(|&n| c.cached_table(n).ok_or_else(|| err("no table at that size"))).collect::<Result<_, _>>()?;
+        Ok(tables_to_flat(ts.into_iter()))
     }
 
     /// Put null tables simulated by the other Worker (`nullTables(ns, sims, seed)`) in the
