@@ -511,7 +511,7 @@
     ];
     const flagged = rep.suppliers.filter((s) => s.verdict === 'deviates');
     const overview = $('chart-overview');
-    body.replaceChildren(
+    body.replaceChildren(...[
       el('div', { class: 'noprint' }, el('p', null,
         el('button', { class: 'btn', type: 'button', id: 'export-suppliers', onclick: exportSuppliers }, 'Supplier results (CSV)'), ' ',
         el('button', { class: 'btn', type: 'button', id: 'export-pull', onclick: exportPull }, `Invoices to pull (CSV, ${state.pull.size})`), ' ',
@@ -536,7 +536,7 @@
         el('tbody', null, [...state.pull.values()].sort((a, b) => a.supplier < b.supplier ? -1 : a.supplier > b.supplier ? 1 : a.line - b.line).map((p) =>
           el('tr', null, el('td', { text: p.supplier }), el('td', { class: 'num', text: p.line }), el('td', { text: p.date }), el('td', { class: 'num', text: fmtMoney(p.amount) }), el('td', { text: p.reason }))))),
       el('p', { class: 'small', text: flagged.length ? 'Suppliers that stand out: ' + flagged.map((s) => s.name).join(', ') + '. Each is a reason to look at the documents, not a conclusion.' : 'No supplier stands out at this confidence.' }),
-      el('p', { class: 'small', text: 'Prepared with digitdrift ' + $('version').textContent + ', in the browser, offline. Same file and seed give the same numbers.' }));
+      el('p', { class: 'small', text: 'Prepared with digitdrift ' + $('version').textContent + ', in the browser, offline. Same file and seed give the same numbers.' })].filter(Boolean)); // no "null" text for a part left out
   }
 
   // ---------- replay: continuous monitoring over the ledger's dates ----------

@@ -72,6 +72,8 @@ test('hostile names stay text; exports neutralised and identical; paper fingerpr
   await page.waitForFunction(() => !/being computed/.test(document.querySelector('#paper-params').textContent));
   const params = await page.$eval('#paper-params', (t) => t.textContent);
   assert.ok(params.includes(sha), 'SHA-256 on the working paper matches node:crypto');
+  // a part of the paper left out (no exclusions here) leaves no stray "null" text
+  assert.equal(await page.$eval('#paper-body', (b) => [...b.childNodes].filter((n) => n.nodeType === Node.TEXT_NODE && n.textContent === 'null').length), 0);
   assert.match(await page.$eval('#paper-results', (t) => t.textContent), /Checked three documents/);
   const a = await downloadText(page, '#export-suppliers');
   const b = await downloadText(page, '#export-suppliers');
