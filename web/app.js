@@ -571,7 +571,7 @@
       el('p', { class: 'caution', text: w.caution }),
       el('p', null, el('label', null, 'Replay as of ', dateInput), ` · confidence ${(100 * w.confidence).toFixed(1)} % · change detector: on honest data at most one false alarm per ${fmtInt(w.arl_years)} years of a supplier's own invoicing, on average.`),
       r ? el('div', { class: 'summary', id: 'replay-summary' }, el('strong', { text: `As of ${r.as_of}: ${r.suppliers_in_alarm.length} supplier${r.suppliers_in_alarm.length === 1 ? '' : 's'} in alarm` }),
-        `, ${fmtMoney(r.paid_to_suppliers_in_alarm)} paid to them so far` + (r.suppliers_in_alarm.length ? ` (${r.suppliers_in_alarm.map((x) => x.name + ' since ' + x.alarm_date).join('; ')})` : '') + '.') : null,
+        `, ${fmtMoney(r.paid_to_suppliers_in_alarm)} paid to them so far` + (r.suppliers_in_alarm.length ? ` (${r.suppliers_in_alarm.map((x) => x.name + ' since ' + x.alarm_date).join('; ')})` : '') + '.') : '', // not null: replaceChildren would print it
       el('div', { class: 'risk', id: 'amount-at-risk' }, el('h2', { text: 'Amount at risk (' + risk.label + ')' }),
         el('p', { text: `${fmtInt(risk.suppliers_in_alarm)} suppliers in alarm were paid ${fmtMoney(risk.paid_to_suppliers_in_alarm)}; of that, plausibly fabricated: about ${fmtMoney(risk.plausibly_fabricated)} (interval ${fmtMoney(risk.plausibly_fabricated_low)} to ${fmtMoney(risk.plausibly_fabricated_high)}).` }),
         el('p', { class: 'small', text: 'Method: ' + risk.method + '.' })),
