@@ -13,6 +13,17 @@ pub const SCALE: i64 = 10_000;
 #[derive(Clone, Copy, Debug, PartialEq, Eq, PartialOrd, Ord, Hash, Default)]
 pub struct Amount(pub i64);
 
+/// 10^0 ..= 10^19 (every power of ten a u64 holds).
+pub(crate) const POW10: [u64; 20] = {
+    let mut t = [1u64; 20];
+    let mut i = 1;
+    while i < 20 {
+        t[i] = t[i - 1] * 10;
+        i += 1;
+    }
+    t
+};
+
 impl Amount {
     pub const ZERO: Amount = Amount(0);
 
@@ -59,16 +70,6 @@ impl Amount {
     /// 0.0456 with k=2 -> 45, 5 with k=2 -> 50 (a single significant digit is padded with zero,
     /// as the decimal text "5.0" would be). None for zero.
     pub fn leading_digits(self, k: u32) -> Option<u32> {
-        /// 10^0 ..= 10^19 (a u64 has at most 20 digits, k at least 1).
-        const POW10: [u64; 20] = {
-            let mut t = [1u64; 20];
-            let mut i = 1;
-            while i < 20 {
-                t[i] = t[i - 1] * 10;
-                i += 1;
-            }
-            t
-        };
         let v = self.0.unsigned_abs();
         if v == 0 || k == 0 || k > 18 {
             return None;

@@ -70,7 +70,7 @@
 //! An alarm is a reason to look, not proof of fraud: suppliers must not be accused on it alone;
 //! defer to professional auditing standards, local law and counsel.
 
-use crate::amount::Amount;
+use crate::amount::{Amount, POW10};
 use crate::benford;
 use crate::counts::CountTable;
 use crate::intake::{civil_from_days, format_date};
@@ -1080,16 +1080,6 @@ pub fn reading_orders(ledger: &Ledger) -> Vec<Vec<u32>> {
         .collect()
 }
 
-/// 10^k for k = 0..=18.
-const POW10: [u64; 19] = {
-    let mut t = [1u64; 19];
-    let mut k = 1;
-    while k < 19 {
-        t[k] = t[k - 1] * 10;
-        k += 1;
-    }
-    t
-};
 
 /// First-two digit bin of a scaled amount, exactly as [`first_two_bin`] (the same integer
 /// quotient `|v| / 10^(digits - 2)`, or `|v| · 10` for a one-digit integer) without the
