@@ -9,7 +9,7 @@ use crate::ledger::{Accounting, Invoice, Ledger};
 use crate::Amount;
 use serde::Serialize;
 use std::sync::atomic::{AtomicBool, AtomicUsize, Ordering};
-use std::sync::{Condvar, Mutex};
+use std::sync::{Condvar, Mutex, OnceLock};
 
 #[derive(Clone, Debug)]
 pub struct ScreenOptions {
@@ -322,26 +322,29 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
     if cfg!(target_arch = "wasm32") {
         return finish_screen(ledger, info, min_amount, opts, supplier_batteries(ledger, opts), cal.as_mut());
     }
-    let quick = cal.as_ref().map(|_| quick_calibration_inputs(ledger));
-    // The power work, costliest supplier first, taken one at a time by the calibration thread
-    // after the tables and by the battery thread once its batteries are done (with a copy of
-    // the calibrator, asked for then: the copy holds the tables).
-    let order: Vec<usize> = quick.as_ref().map_or_else(Vec::new, |(inputs, _)| {
-        let mut o: Vec<usize> = (0..inputs.len()).collect();
-        o.sort_by_key(|&i| std::cmp::Reverse(inputs[i].first_two_counts.iter().sum::<u64>()));
-        o
-    });
+    // The calibration thread makes the quick pass (the suppliers' calibration inputs and
+    // invoice counts, and the power work's order: costliest supplier first), the null tables,
+    // then the power work one supplier at a time; the battery thread, once its batteries are
+    // done, takes suppliers' power work too (with a copy of the calibrator, asked for then: the
+    // copy holds the tables).
+    let calibrating = cal.is_some();
+    let plan: OnceLock<(Vec<SupplierInput>, Vec<u64>, Vec<usize>)> = OnceLock::new();
     let next = AtomicUsize::new(0);
     let copy_wanted = AtomicBool::new(false);
     let copy: (Mutex<Option<Option<Calibrator>>>, Condvar) = (Mutex::new(None), Condvar::new());
-    let inputs: &[SupplierInput] = quick.as_ref().map_or(&[], |q| &q.0);
     let ((Batteries { suppliers, counts, .. }, whole, credits, theirs), mut cal) = std::thread::scope(|sc| {
         let calibration = sc.spawn(|| {
             let give = |c: Option<Calibrator>| {
                 *copy.0.lock().expect("copy") = Some(c);
                 copy.1.notify_all();
             };
-            if let (Some(c), Some((_, invoices))) = (cal.as_mut(), quick.as_ref()) {
+            if let Some(c) = cal.as_mut() {
+                let (inputs, invoices, order) = plan.get_or_init(|| {
+                    let (inputs, invoices) = quick_calibration_inputs(ledger);
+                    let mut order: Vec<usize> = (0..inputs.len()).collect();
+                    order.sort_by_key(|&i| std::cmp::Reverse(inputs[i].first_two_counts.iter().sum::<u64>()));
+                    (inputs, invoices, order)
+                });
                 let need = screen_tables(c, inputs, invoices);
                 c.prepare(&need, 1);
                 loop {
@@ -360,20 +363,20 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
         let (whole, credits) = whole_file_and_credits(ledger, opts, b.file_duplicates.take());
         // help with the power work if any is left
         let mut theirs = Vec::new();
-        if next.load(Ordering::Relaxed) < order.len() {
+        if calibrating && plan.get().is_none_or(|p| next.load(Ordering::Relaxed) < p.2.len()) {
             copy_wanted.store(true, Ordering::Release);
             let mut g = copy.0.lock().expect("copy");
             while g.is_none() {
                 g = copy.1.wait(g).expect("copy");
             }
-            if let Some(Some(mut c)) = g.take() {
+            if let (Some(Some(mut c)), Some((inputs, _, order))) = (g.take(), plan.get()) {
                 drop(g);
-                theirs = c.powers_shared(inputs, &order, &next);
+                theirs = c.powers_shared(inputs, order, &next);
             }
         }
         ((b, whole, credits, theirs), calibration.join().expect("calibration thread"))
     });
-    if let Some(c) = cal.as_mut() {
+    if let (Some(c), Some((inputs, _, _))) = (cal.as_mut(), plan.get()) {
         for (i, r) in theirs {
             c.insert_power(&inputs[i], r);
         }
