@@ -33,7 +33,8 @@ async function* slices(blob) {
     let pending = fill(reader, new ArrayBuffer(CHUNK));
     let at = 0;
     for (;;) {
-      const { view, done } = await pending;
+      const { view, done, lost } = await pending;
+      if (lost) throw new Error('the file could not be read to its end');
       if (!view.byteLength) break;
       pending = done ? Promise.resolve({ view: new Uint8Array(0), done: true }) : fill(reader, spare);
       at += view.byteLength;
@@ -50,10 +51,7 @@ async function fill(reader, buffer) {
   let off = 0;
   while (off < buffer.byteLength) {
     const { done, value } = await reader.read(new Uint8Array(buffer, off, buffer.byteLength - off));
-    if (!value) { // only after a cancel: the bytes read into the buffer went with it
-      if (off) throw new Error('the file could not be read to its end');
-      return { view: new Uint8Array(0), done: true };
-    }
+    if (!value) return { view: new Uint8Array(0), done: true, lost: off > 0 }; // only after a cancel: the bytes read went with the buffer
     buffer = value.buffer; // the buffer comes back with the bytes
     if (done) return { view: new Uint8Array(buffer, 0, off), done: true };
     off += value.byteLength;
