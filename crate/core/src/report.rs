@@ -110,33 +110,17 @@ pub fn population<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &Scr
 /// As [`population`], with the population's duplicate findings known already (see
 /// [`battery::run_with`]).
 pub fn population_with<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &ScreenOptions, known: Option<Duplicates>) -> SupplierResult {
-    let mut total = Amount::ZERO;
-    let (mut lo, mut hi) = (Amount(i64::MAX), Amount(0));
-    let (mut d0, mut d1) = (i32::MAX, i32::MIN);
-    for i in 0..invs.len() {
-        let inv = invs.at(i);
-        total = total.saturating_add(inv.amount);
-        lo = lo.min(inv.amount);
-        hi = hi.max(inv.amount);
-        if inv.date != crate::ledger::NO_DATE {
-            d0 = d0.min(inv.date);
-            d1 = d1.max(inv.date);
-        }
-    }
-    if invs.is_empty() {
-        lo = Amount::ZERO;
-    }
-    let date = |d: i32| (d != i32::MAX && d != i32::MIN).then(|| crate::intake::format_date(d));
+    let (tests, t) = battery::run_with_totals(invs, &opts.battery, known);
     SupplierResult {
         id,
         name: name.to_string(),
         invoices: invs.len() as u64,
-        amount_total: total,
-        amount_min: lo,
-        amount_max: hi,
-        first_date: date(d0),
-        last_date: date(d1),
-        tests: battery::run_with(invs, &opts.battery, known),
+        amount_total: t.total,
+        amount_min: t.min,
+        amount_max: t.max,
+        first_date: t.first_date.map(crate::intake::format_date),
+        last_date: t.last_date.map(crate::intake::format_date),
+        tests,
         verdict: None,
         invoices_needed: None,
         calibration: None,

@@ -367,7 +367,55 @@ pub fn run<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions) -> Battery 
 /// the parts it is a disjoint union of, by [`DuplicatesMerge`]; the whole file from its
 /// suppliers), which then are not searched again.
 pub fn run_with<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions, known: Option<Duplicates>) -> Battery {
+    run_with_totals(invoices, opts, known).0
+}
+
+/// A population's totals, gathered in the battery's pass over it: the sum of the amounts
+/// (saturating), the smallest and largest amount (zero for no members), and the first and last
+/// date (days since 1970-01-01; None when no member is dated).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct Totals {
+    pub total: Amount,
+    pub min: Amount,
+    pub max: Amount,
+    pub first_date: Option<i32>,
+    pub last_date: Option<i32>,
+}
+
+#[derive(Clone, Copy)]
+struct TotalsAcc {
+    total: Amount,
+    lo: Amount,
+    hi: Amount,
+    d0: i32,
+    d1: i32,
+}
+
+impl TotalsAcc {
+    fn new() -> TotalsAcc {
+        TotalsAcc { total: Amount::ZERO, lo: Amount(i64::MAX), hi: Amount(0), d0: i32::MAX, d1: i32::MIN }
+    }
+    #[inline]
+    fn add(&mut self, inv: &Invoice) {
+        self.total = self.total.saturating_add(inv.amount);
+        self.lo = self.lo.min(inv.amount);
+        self.hi = self.hi.max(inv.amount);
+        if inv.date != crate::ledger::NO_DATE {
+            self.d0 = self.d0.min(inv.date);
+            self.d1 = self.d1.max(inv.date);
+        }
+    }
+    fn finish(self, empty: bool) -> Totals {
+        let date = |d: i32| (d != i32::MAX && d != i32::MIN).then_some(d);
+        Totals { total: self.total, min: if empty { Amount::ZERO } else { self.lo }, max: self.hi, first_date: date(self.d0), last_date: date(self.d1) }
+    }
+}
+
+/// As [`run_with`], with the population's [`Totals`] from the same pass (one pass less over
+/// members read through an index list).
+pub fn run_with_totals<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions, known: Option<Duplicates>) -> (Battery, Totals) {
     let t = opts.tests;
+    let mut totals = TotalsAcc::new();
     let mut c1 = [0u64; 9];
     let mut c2 = [0u64; 10];
     let mut c12 = [0u64; 90];
@@ -378,7 +426,9 @@ pub fn run_with<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions, known:
     let need_pass = t.first || t.second || t.first_two || t.first_three || t.last_two || t.summation || t.distortion;
     if need_pass {
         for i in 0..invoices.len() {
-            let a = invoices.at(i).amount.abs();
+            let inv = invoices.at(i);
+            totals.add(inv);
+            let a = inv.amount.abs();
             let Some(d3) = a.leading_digits(3) else { continue };
             let d2 = d3 / 10;
             c1[(d3 / 100 - 1) as usize] += 1;
@@ -396,6 +446,11 @@ pub fn run_with<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions, known:
             if t.distortion {
                 dist_acc.add(a);
             }
+        }
+    }
+    if !need_pass {
+        for i in 0..invoices.len() {
+            totals.add(invoices.at(i));
         }
     }
     let mut b = Battery::default();
@@ -438,7 +493,7 @@ pub fn run_with<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions, known:
             b.amount_checks = Some(amounts::amount_checks(invoices, runs, opts, known));
         }
     }
-    b
+    (b, totals.finish(invoices.is_empty()))
 }
 
 /// Indices (into `invoices`, ascending) of the invoices behind one bar of a digit chart.
