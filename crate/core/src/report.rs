@@ -3,7 +3,7 @@
 //! sample-size calibration and the false-alarm control across suppliers.
 
 use crate::battery::{self, Battery, BatteryOptions, Duplicates, DuplicatesMerge, Indexed, Members};
-use crate::calibrate::{CalibrationOptions, Calibrator, Correction, SupplierCalibration, SupplierInput, Verdict};
+use crate::calibrate::{table_items, CalibrationOptions, Calibrator, Categorical, Correction, NullTable, SupplierCalibration, SupplierInput, Verdict};
 use crate::intake::IntakeInfo;
 use crate::ledger::{Accounting, Invoice, Ledger};
 use crate::Amount;
@@ -299,9 +299,10 @@ pub fn screen_tables(cal: &Calibrator, inputs: &[SupplierInput], invoices: &[u64
 /// and the credit notes'), which need memory; the other, which needs next to none, the null
 /// tables and the power work for each supplier, from the quick pass's inputs
 /// ([`quick_calibration_inputs`]; the calibration after the batteries finds them cached).
-/// Once its batteries are done, the first thread takes suppliers' power work too, with a copy
-/// of the calibrator (the batteries' memory is free by then). Every number is the same as on
-/// one thread (tables and power results are seeded by their own size and path).
+/// Once its batteries are done, the first thread takes null tables ([`table_items`], from the
+/// costliest end) and then suppliers' power work too, with a copy of the calibrator (the
+/// batteries' memory is free by then). Every number is the same as on one thread (tables and
+/// power results are seeded by their own size and path).
 pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions, mut cal: Option<Calibrator>) -> ScreenReport {
     if cfg!(target_arch = "wasm32") {
         return finish_screen(ledger, info, min_amount, opts, supplier_batteries(ledger, opts), cal.as_mut());
@@ -314,6 +315,10 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
     let calibrating = cal.is_some();
     let plan: OnceLock<(Vec<SupplierInput>, Vec<u64>, Vec<usize>)> = OnceLock::new();
     let next = AtomicUsize::new(0);
+    let table_plan: OnceLock<(Vec<Vec<u64>>, u32, u64)> = OnceLock::new(); // items, sims, seed
+    let next_table = AtomicUsize::new(0);
+    // the battery thread's tables, and how many items are done (by either thread)
+    let made: (Mutex<(Vec<NullTable>, usize)>, Condvar) = (Mutex::new((Vec::new(), 0)), Condvar::new());
     let copy_wanted = AtomicBool::new(false);
     let copy: (Mutex<Option<Option<Calibrator>>>, Condvar) = (Mutex::new(None), Condvar::new());
     let ((Batteries { suppliers, counts, .. }, whole, credits, theirs), mut cal) = std::thread::scope(|sc| {
@@ -329,8 +334,24 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
                     order.sort_by_key(|&i| std::cmp::Reverse(inputs[i].first_two_counts.iter().sum::<u64>()));
                     (inputs, invoices, order)
                 });
-                let need = screen_tables(c, inputs, invoices);
-                c.prepare(&need, 1);
+                // the null tables: items taken from the costliest end, by the battery thread
+                // too once its batteries are done; its tables come back through `made`
+                let (items, _, _) = table_plan.get_or_init(|| (table_items(&screen_tables(c, inputs, invoices)), c.options().sims, c.options().seed));
+                loop {
+                    let k = next_table.fetch_add(1, Ordering::AcqRel);
+                    let Some(j) = items.len().checked_sub(k + 1) else { break };
+                    c.prepare(&items[j], 1);
+                    made.0.lock().expect("made").1 += 1;
+                }
+                // wait for an item the battery thread is still simulating, then take its tables
+                let mut m = made.0.lock().expect("made");
+                while m.1 < items.len() {
+                    m = made.1.wait(m).expect("made");
+                }
+                for t in m.0.drain(..) {
+                    c.insert_table(t);
+                }
+                drop(m);
                 loop {
                     if copy_wanted.swap(false, Ordering::AcqRel) {
                         give(Some(c.for_power_thread()));
@@ -345,6 +366,19 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
         });
         let mut b = supplier_batteries(ledger, opts);
         let (whole, credits) = whole_file_and_credits(ledger, opts, b.file_duplicates.take());
+        // help with the null tables if any are left (their plan is set before the first is taken)
+        if let Some((items, sims, seed)) = table_plan.get().filter(|p| next_table.load(Ordering::Acquire) < p.0.len()) {
+            let benford = Categorical::new(&crate::benford::first_two());
+            loop {
+                let k = next_table.fetch_add(1, Ordering::AcqRel);
+                let Some(j) = items.len().checked_sub(k + 1) else { break };
+                let ts = NullTable::simulate_many(&benford, &items[j], *sims, *seed, 1);
+                let mut m = made.0.lock().expect("made");
+                m.0.extend(ts);
+                m.1 += 1;
+                made.1.notify_all();
+            }
+        }
         // help with the power work if any is left
         let mut theirs = Vec::new();
         if calibrating && plan.get().is_none_or(|p| next.load(Ordering::Relaxed) < p.2.len()) {

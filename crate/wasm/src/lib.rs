@@ -444,9 +444,7 @@ impl Session {
         };
         // for sharing the tables by stealing: the ones on the honest paths in one item (about the
         // cost of the largest), then each other one, cheapest first
-        let (path, own): (Vec<u64>, Vec<u64>) = parts[1].iter().partition(|&&n| digitdrift_core::calibrate::on_path(n));
-        let mut items: Vec<Vec<u64>> = if path.is_empty() { Vec::new() } else { vec![path] };
-        items.extend(own.into_iter().map(|n| vec![n]));
+        let items = digitdrift_core::calibrate::table_items(&parts[1]);
         let out = to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "items": items, "sims": sims, "seed": seed, "share": null}))?;
         // the power work is shared costliest first (see `powerQuick`)
         let mut quick = quick.map(|q| q.0).unwrap_or_default();

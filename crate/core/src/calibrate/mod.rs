@@ -382,6 +382,17 @@ pub fn on_path(n: u64) -> bool {
     n >= 1 && n <= sample::GUIDE_MAX_N && (n < EXACT_BELOW || grid_n(grid_floor(n)) == n)
 }
 
+/// The tables at `ns` as items to share between threads or Workers: those [`on_path`] in one
+/// item (a batch costs about as much as its largest table), then each other one alone,
+/// ascending (the costliest last).
+pub fn table_items(ns: &[u64]) -> Vec<Vec<u64>> {
+    let (path, mut own): (Vec<u64>, Vec<u64>) = ns.iter().partition(|&&n| on_path(n));
+    own.sort_unstable();
+    let mut items: Vec<Vec<u64>> = if path.is_empty() { Vec::new() } else { vec![path] };
+    items.extend(own.into_iter().map(|n| vec![n]));
+    items
+}
+
 /// The stops of every honest path up to `max`: 1, 2, ..., 99, then the grid points from 100
 /// on (up to [`sample::GUIDE_MAX_N`]).
 fn path_stops(max: u64) -> impl Iterator<Item = u64> {
