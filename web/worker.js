@@ -239,18 +239,19 @@ function helperCalibrate(h, plan, onShare) {
 const helperPowers = (h, share) => helperJob(h, { cmd: 'power', options: share.options, ns: share.ns, tables: share.tables, inputs: share.inputs },
   [share.ns.buffer, share.tables.buffer, share.inputs.buffer]);
 
-// Screen with the null tables split over this Worker and the helper, then the power work
-// (power against wholly fabricated amounts, power curves) split the same way. Returns
-// {screen, workers, timing} or, when `cancellable` and Cancel came, null. Without a helper
-// (or when it fails) this Worker simulates every table, one per call, Cancel between.
+// Screen with the null tables shared by this Worker and the helper, then the power work
+// (power against wholly fabricated amounts, power curves) shared the same way (by stealing,
+// see helperCalibrate; in fixed shares for the benchmark's calibration-alone runs or a helper
+// not ready yet). Returns {screen, workers, timing} or, when `cancellable` and Cancel came,
+// null. Without a helper (or when it fails) this Worker does what is left: the same numbers.
 let helperWanted = true;
 let keepTables = true;
 let calibrationOnly = false; // benchmark: nothing but calibration while the helper does power work
 async function screenSplit(settings, cancellable) {
   const t0 = performance.now();
-  // The helper takes the whole calibration (every table, then every supplier's power work from
-  // the quick pass's inputs) while the batteries run here; the benchmark's calibration-alone
-  // runs split the tables and the power work between the two Workers instead.
+  // The helper starts on the calibration (table items, then the suppliers' power work, from the
+  // quick pass) while the batteries run here, and this Worker joins it from the other end; the
+  // benchmark's calibration-alone runs split the tables and the power work in fixed shares.
   const together = helperWanted && !calibrationOnly && helper && helper.ready;
   const plan = session.screenPlan(settings, !!together);
   const h = plan.theirs.length && helperWanted ? startHelper() : null;
@@ -377,7 +378,7 @@ async function screenSplit(settings, cancellable) {
 }
 
 // A zero-delay yield to the event loop, so a Cancel message gets in between replications.
-// Several callers may wait at once (the helper's table job and another): one resolver each, in order.
+// Several callers may wait at once (e.g. two jobs in the helper): one resolver each, in order.
 const yieldChannel = new MessageChannel();
 const yieldWaiting = [];
 yieldChannel.port1.onmessage = () => { const r = yieldWaiting.shift(); if (r) r(); };
