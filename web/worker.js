@@ -84,10 +84,13 @@ async function* slicesInTurn(blob) {
 
 async function openLedger(id, blob, name, options, settings) {
   cancelled = false;
-  session = new wasm_bindgen.Session(options || {});
-  if (!keepTables) session.keepTables(false);
+  // this open's own session: a later open replaces the global one, and then this one stops
+  const s = new wasm_bindgen.Session(options || {});
+  session = s;
+  const drop = () => { s.free(); if (session === s) session = null; post({ id, ok: false, cancelled: true }); };
+  if (!keepTables) s.keepTables(false);
   const total = blob.size;
-  session.setSizeHint(total); // the invoice store is reserved once, not grown by copies
+  s.setSizeHint(total); // the invoice store is reserved once, not grown by copies
   let done = 0;
   const t0 = performance.now();
   // While this Worker reads the file, the helper simulates the null tables almost every screen
@@ -97,29 +100,30 @@ async function openLedger(id, blob, name, options, settings) {
   // The file's SHA-256 (its fingerprint) is not computed while it is read: the helper reads
   // the file again once the screen is shown (see fingerprintLater).
   const hashLater = helperWanted && helper && helper.ready;
-  if (hashLater) session.hashElsewhere();
+  if (hashLater) s.hashElsewhere();
   let shown = 0;
   for await (const { buf, end } of slices(blob)) {
-    if (cancelled) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
-    session.feed(buf);
+    if (cancelled || session !== s) { drop(); return; }
+    s.feed(buf);
     done = end;
     // progress at most every 50 ms: the page redraws its bar on each, on the same two cores
     const now = performance.now();
-    if (now - shown >= 50) { shown = now; post({ progress: true, id, done, total, rows: session.rowsSoFar() }); }
+    if (now - shown >= 50) { shown = now; post({ progress: true, id, done, total, rows: s.rowsSoFar() }); }
   }
-  const intake = session.finish();
+  const intake = s.finish();
   const intakeMs = performance.now() - t0;
   if (ahead) {
     const t = await ahead;
-    if (t) session.holdTables(new Float64Array(likely.ns), t, likely.sims, likely.seed);
+    if (t) s.holdTables(new Float64Array(likely.ns), t, likely.sims, likely.seed);
   }
+  if (cancelled || session !== s) { drop(); return; }
   if (!intake.ok) { post({ id, ok: true, value: { name, intake } }); return; }
   post({ progress: true, id, done, total, rows: intake.rows.read, stage: 'screening' });
   const res = await screenSplit(settings || {}, true);
-  if (!res) { session.free(); session = null; post({ id, ok: false, cancelled: true }); return; }
+  if (!res) { drop(); return; }
   res.timing.intakeMs = intakeMs;
   const ms = performance.now() - t0;
-  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, powerWorkers: res.powerWorkers, timing: res.timing, ms, sha256: hashLater ? null : session.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
+  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, powerWorkers: res.powerWorkers, timing: res.timing, ms, sha256: hashLater ? null : s.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
   if (hashLater) fingerprintLater(id, blob);
 }
 
@@ -249,13 +253,31 @@ let keepTables = true;
 let calibrationOnly = false; // benchmark: nothing but calibration while the helper does power work
 async function screenSplit(settings, cancellable) {
   const t0 = performance.now();
+  // A Cancel, or a later open that replaced this screen's session (its `cancelled = false` can
+  // come before this screen looks again), ends this screen. After a Cancel the helper is
+  // replaced (it stops at once); for a later open it is kept, told to drop this screen's job.
+  const s = session;
+  const gone = () => session !== s || (cancellable && cancelled);
   // The helper starts on the calibration (table items, then the suppliers' power work, from the
   // quick pass) while the batteries run here, and this Worker joins it from the other end; the
   // benchmark's calibration-alone runs split the tables and the power work in fixed shares.
   const together = helperWanted && !calibrationOnly && helper && helper.ready;
-  const plan = session.screenPlan(settings, !!together);
+  const plan = s.screenPlan(settings, !!together);
   const h = plan.theirs.length && helperWanted ? startHelper() : null;
-  const stop = () => { session.screenAbort(); stopHelper(); if (helperWanted) startHelper(); return null; };
+  let job = null;
+  const stop = () => {
+    s.screenAbort();
+    if (job && session !== s && helper === h) {
+      h.shares.delete(job.job);
+      h.worker.postMessage({ cmd: 'tablesStop', job: job.job, at: 0 });
+      h.worker.postMessage({ cmd: 'powersStop', job: job.job, at: 0 });
+      h.worker.postMessage({ cmd: 'workerTables', job: job.job, ns: [], tables: new Float64Array(0), sims: plan.sims, seed: plan.seed });
+    } else {
+      stopHelper();
+      if (helperWanted) startHelper();
+    }
+    return null;
+  };
   let tClaimed = 0;
   let pClaimed = 0;
   const arrived = new Set(); // the helper's table items in the calibrator here
@@ -263,11 +285,11 @@ async function screenSplit(settings, cancellable) {
   let tablesIn = null; // resolves when the helper's items [0, tablesWanted) are all here
   let tablesWanted = Infinity;
   const check = () => { if (tablesIn && [...Array(tablesWanted).keys()].every((k) => arrived.has(k))) { const r = tablesIn; tablesIn = null; r(true); } };
-  const job = h && plan.share ? helperCalibrate(h, plan, (m) => {
+  job = h && plan.share ? helperCalibrate(h, plan, (m) => {
     if (helperFailsIn && m.share === helperFailsIn && helper === h) { stopHelper(); return; } // tests only
     if (m.share === 'tclaimed') tClaimed = Math.max(tClaimed, m.at);
     else if (m.share === 'pclaimed') pClaimed = Math.max(pClaimed, m.at);
-    else if (m.share === 'tables') { session.insertTables(m.ns, m.tables); arrived.add(m.item); check(); }
+    else if (m.share === 'tables') { s.insertTables(m.ns, m.tables); arrived.add(m.item); check(); }
     else chunks.push(m);
   }) : null;
   if (job) {
@@ -276,63 +298,63 @@ async function screenSplit(settings, cancellable) {
     const items = plan.items;
     const count = plan.share.count;
     const race = (p) => Promise.race([p, new Promise((r) => { onCancel = () => r(null); })]).finally(() => { onCancel = null; });
-    session.screenBatteries();
+    s.screenBatteries();
     const t1 = performance.now();
-    session.screenWhole(); // the whole file's battery too, while the helper works
+    s.screenWhole(); // the whole file's battery too, while the helper works
     const tw = performance.now();
     await yieldNow(); // the helper's news so far
     let tBack = items.length;
     while (tBack - 1 >= tClaimed) {
       tBack--;
       h.worker.postMessage({ cmd: 'tablesStop', job: job.job, at: tBack });
-      session.prepareTables(items[tBack]);
+      s.prepareTables(items[tBack]);
       await yieldNow();
-      if (cancellable && cancelled) return stop();
+      if (gone()) return stop();
     }
     const mine = items.slice(tBack).flat();
     if (tBack < items.length && helper === h) {
-      const flat = session.tablesFlat(mine);
+      const flat = s.tablesFlat(mine);
       h.worker.postMessage({ cmd: 'workerTables', job: job.job, ns: mine, tables: flat, sims: plan.sims, seed: plan.seed }, [flat.buffer]);
     }
     // the helper's items [0, tBack) (it may have done some of the last ones here too)
     tablesWanted = tBack;
     const all = await race(Promise.race([new Promise((r) => { tablesIn = r; check(); }), job.done.then(() => false)]));
-    if (cancellable && cancelled) return stop();
+    if (gone()) return stop();
     let helped = false;
     const tt = performance.now();
     let back = count;
     if (!all) {
       // the helper failed: what is missing is simulated here, the same numbers later
       stopHelper();
-      session.prepareTables(plan.theirs);
+      s.prepareTables(plan.theirs);
     } else {
       while (back - 1 >= pClaimed) {
         back--;
         h.worker.postMessage({ cmd: 'powersStop', job: job.job, at: back });
-        session.powerQuick(back);
+        s.powerQuick(back);
         await yieldNow(); // the helper's claims come in between
-        if (cancellable && cancelled) return stop();
+        if (gone()) return stop();
       }
       helped = !!(await race(job.done));
-      if (cancellable && cancelled) return stop();
+      if (gone()) return stop();
     }
     // every chunk the helper finished goes in (after a failure too); screenFinish does the rest
-    for (const m of chunks) session.insertQuickPowersAt(m.from, m.powers);
+    for (const m of chunks) s.insertQuickPowersAt(m.from, m.powers);
     const t3 = performance.now();
-    const screen = session.screenFinish();
+    const screen = s.screenFinish();
     const t4 = performance.now();
     return { screen, workers: all && arrived.size ? 2 : 1, powerWorkers: helped && chunks.length ? 2 : 1,
       timing: { batteries: t1 - t0, wholeMs: tw - t1, tables: tt - tw, power: t3 - tt, finish: t4 - t3, theirs: plan.theirs.length, tablesHere: items.length - tBack,
         mine: count - back, powerTheirs: helped ? back : 0, helperPowerMs: h.lastMs, planMs: 0 } };
   }
   const theirs = h ? helperTables(h, plan) : null; // the helper simulates while the batteries run here
-  session.screenBatteries();
+  s.screenBatteries();
   const t1 = performance.now();
   const simulate = async (ns) => {
     for (const n of ns) {
-      session.prepareTables([n]);
+      s.prepareTables([n]);
       await yieldNow(); // lets the helper's messages (and a Cancel) in between tables
-      if (cancellable && cancelled) return false;
+      if (gone()) return false;
     }
     return true;
   };
@@ -342,36 +364,36 @@ async function screenSplit(settings, cancellable) {
     // waiting for the helper (already working on its share) beats simulating its share again
     tables = await Promise.race([theirs, new Promise((r) => { onCancel = () => r(null); })]);
     onCancel = null;
-    if (cancellable && cancelled) return stop();
+    if (gone()) return stop();
   } else if (h) {
     stopHelper(); // not started in time: its share is simulated here; a fresh one next time
   }
-  if (tables) session.insertTables(plan.theirs, tables);
+  if (tables) s.insertTables(plan.theirs, tables);
   else if (!(await simulate(plan.theirs))) return stop();
   const t2 = performance.now();
   // Power work: most suppliers to the helper (with the tables it lacks), the rest here, a few
   // per call so that a Cancel gets in. Every result depends only on the options, the tables and
   // the supplier: the same numbers as one Worker.
-  const pp = session.powerPlan(new Float64Array(plan.theirs), !!(tables && helper === h && h.ready), calibrationOnly ? 2 : undefined);
+  const pp = s.powerPlan(new Float64Array(plan.theirs), !!(tables && helper === h && h.ready), calibrationOnly ? 2 : undefined);
   const tp = performance.now();
   const powers = pp.theirs ? helperPowers(h, pp.theirs) : null;
-  if (powers && !calibrationOnly) session.screenWhole(); // the whole file's battery here while the helper works
+  if (powers && !calibrationOnly) s.screenWhole(); // the whole file's battery here while the helper works
   const tw = performance.now();
   for (;;) {
-    const left = session.powerStep(8);
+    const left = s.powerStep(8);
     if (!left) break;
     await yieldNow();
-    if (cancellable && cancelled) return stop();
+    if (gone()) return stop();
   }
   let theirPowers = null;
   if (powers) {
     theirPowers = await Promise.race([powers, new Promise((r) => { onCancel = () => r(null); })]);
     onCancel = null;
-    if (cancellable && cancelled) return stop();
-    if (theirPowers) session.insertPowers(theirPowers); // else screenFinish does that share here
+    if (gone()) return stop();
+    if (theirPowers) s.insertPowers(theirPowers); // else screenFinish does that share here
   }
   const t3 = performance.now();
-  const screen = session.screenFinish();
+  const screen = s.screenFinish();
   const t4 = performance.now();
   return { screen, workers: tables ? 2 : 1, powerWorkers: theirPowers ? 2 : 1,
     timing: { batteries: t1 - t0, tables: t2 - t1, power: t3 - t2, finish: t4 - t3, mine: plan.mine.length, theirs: plan.theirs.length, powerTheirs: pp.theirs ? pp.theirs.count : 0, helperPowerMs: h ? h.lastMs : null, planMs: tp - t2, wholeMs: tw - tp } };
