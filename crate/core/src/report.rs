@@ -3,7 +3,7 @@
 //! sample-size calibration and the false-alarm control across suppliers.
 
 use crate::battery::{self, Battery, BatteryOptions, Duplicates, DuplicatesMerge, Indexed, Members};
-use crate::calibrate::{table_items, CalibrationOptions, Calibrator, Categorical, Correction, NullTable, SupplierCalibration, SupplierInput, Verdict};
+use crate::calibrate::{costliest_first, table_items, CalibrationOptions, Calibrator, Categorical, Correction, NullTable, SupplierCalibration, SupplierInput, Verdict};
 use crate::intake::IntakeInfo;
 use crate::ledger::{Accounting, Invoice, Ledger};
 use crate::Amount;
@@ -289,7 +289,7 @@ pub fn quick_calibration_inputs(ledger: &Ledger) -> (Vec<SupplierInput>, Vec<u64
 /// simulated beside the batteries; a size missed here is simulated when read, with the same
 /// numbers).
 pub fn screen_tables(cal: &Calibrator, inputs: &[SupplierInput], invoices: &[u64]) -> Vec<u64> {
-    let ns: Vec<u64> = inputs.iter().map(|x| x.first_two_counts.iter().sum()).collect();
+    let ns: Vec<u64> = inputs.iter().map(SupplierInput::n).collect();
     tables_for(cal, &ns, invoices)
 }
 
@@ -330,8 +330,7 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
             if let Some(c) = cal.as_mut() {
                 let (inputs, invoices, order) = plan.get_or_init(|| {
                     let (inputs, invoices) = quick_calibration_inputs(ledger);
-                    let mut order: Vec<usize> = (0..inputs.len()).collect();
-                    order.sort_by_key(|&i| std::cmp::Reverse(inputs[i].first_two_counts.iter().sum::<u64>()));
+                    let order = costliest_first(&inputs, (0..inputs.len()).collect());
                     (inputs, invoices, order)
                 });
                 // the null tables: items taken from the costliest end, by the battery thread

@@ -56,7 +56,7 @@ pub fn calibrate_ledger_500_threads(full: bool, threads: usize) -> usize {
     if full {
         cal.ledger(&inputs).alarms
     } else {
-        let ns: Vec<u64> = inputs.iter().map(|s| s.first_two_counts.iter().sum()).collect();
+        let ns: Vec<u64> = inputs.iter().map(SupplierInput::n).collect();
         cal.prepare(&ns, threads);
         inputs.iter().filter(|s| cal.null_only(&s.first_two_counts).mc_p_value <= 0.05).count()
     }
@@ -64,7 +64,7 @@ pub fn calibrate_ledger_500_threads(full: bool, threads: usize) -> usize {
 
 /// The null-table sizes [`calibrate_ledger_500`] without power curves needs (cold cache).
 pub fn ledger_500_table_sizes() -> Vec<u64> {
-    let ns: Vec<u64> = ledger_500().iter().map(|s| s.first_two_counts.iter().sum()).collect();
+    let ns: Vec<u64> = ledger_500().iter().map(SupplierInput::n).collect();
     Calibrator::new(CalibrationOptions::default()).missing_tables(&ns)
 }
 

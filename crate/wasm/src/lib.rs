@@ -447,8 +447,8 @@ impl Session {
         let items = digitdrift_core::calibrate::table_items(&parts[1]);
         let out = to_js(&serde_json::json!({"mine": parts[0], "theirs": parts[1], "items": items, "sims": sims, "seed": seed, "share": null}))?;
         // the power work is shared costliest first (see `powerQuick`)
-        let mut quick = quick.map(|q| q.0).unwrap_or_default();
-        quick.sort_by_key(|x| std::cmp::Reverse(x.first_two_counts.iter().sum::<u64>()));
+        let quick = quick.map(|q| q.0).unwrap_or_default();
+        let quick: Vec<SupplierInput> = digitdrift_core::calibrate::costliest_first(&quick, (0..quick.len()).collect()).into_iter().map(|i| quick[i].clone()).collect();
         if let (true, Some(c)) = (together, cal.as_ref()) {
             let share = js_sys::Object::new();
             js_sys::Reflect::set(&share, &"options".into(), &to_js(c.options())?)?;
@@ -521,8 +521,7 @@ impl Session {
         let Some(c) = p.cal.as_mut() else {
             return to_js(&serde_json::json!({"theirs": null}));
         };
-        let mut order: Vec<usize> = (0..p.inputs.len()).collect();
-        order.sort_by_key(|&i| std::cmp::Reverse(p.inputs[i].first_two_counts.iter().sum::<u64>()));
+        let order = digitdrift_core::calibrate::costliest_first(&p.inputs, (0..p.inputs.len()).collect());
         if !share || order.len() < 4 {
             p.mine = order;
             p.theirs.clear();

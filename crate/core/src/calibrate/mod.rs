@@ -822,6 +822,20 @@ pub struct SupplierInput {
     pub amount_max: Amount,
 }
 
+impl SupplierInput {
+    /// The supplier's size as calibration reads it: invoices with first-two digits.
+    pub fn n(&self) -> u64 {
+        self.first_two_counts.iter().sum()
+    }
+}
+
+/// Indices of `inputs` (those given in `idx`) in the order their power work is dealt: the
+/// costliest (largest) supplier first, ties in the order given.
+pub fn costliest_first(inputs: &[SupplierInput], mut idx: Vec<usize>) -> Vec<usize> {
+    idx.sort_by_key(|&i| std::cmp::Reverse(inputs[i].n()));
+    idx
+}
+
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct LedgerCalibration {
     pub correction: Correction,
@@ -1094,7 +1108,7 @@ impl Calibrator {
     pub fn ledger(&mut self, inputs: &[SupplierInput]) -> LedgerCalibration {
         // All null tables first, over threads: those of the suppliers' own sizes and the power
         // checkpoints every curve passes (every checkpoint up to the first at or above the largest n).
-        let ns: Vec<u64> = inputs.iter().map(|s| s.first_two_counts.iter().sum()).collect();
+        let ns: Vec<u64> = inputs.iter().map(SupplierInput::n).collect();
         let ns = self.ledger_sizes(&ns);
         self.prepare(&ns, self.threads);
         self.powers(inputs, self.threads);

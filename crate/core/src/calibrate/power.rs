@@ -268,7 +268,7 @@ impl Calibrator {
             DeviationModel::ObservedProfile => input.first_two_counts.iter().fold(0u64, |h, &c| crate::rng::mix64(h ^ c)),
         };
         PowerKey {
-            n: input.first_two_counts.iter().sum(),
+            n: input.n(),
             amount_min: input.amount_min.0,
             amount_max: input.amount_max.0,
             profile,
@@ -322,8 +322,7 @@ impl Calibrator {
         let todo: Vec<usize> = (0..inputs.len()).filter(|&i| !self.powers.contains_key(&self.power_key(&inputs[i]))).collect();
         if threads > 1 && todo.len() >= 2 * threads {
             // shares by size (the costliest first, dealt in turn) so that they take about as long
-            let mut order = todo.clone();
-            order.sort_by_key(|&i| std::cmp::Reverse(inputs[i].first_two_counts.iter().sum::<u64>()));
+            let order = costliest_first(inputs, todo.clone());
             let shares: Vec<Vec<usize>> = (0..threads).map(|t| order.iter().copied().skip(t).step_by(threads).collect()).collect();
             // the shared honest paths are simulated once, before the copies
             if self.opts.deviation_model == DeviationModel::EvenSpread {
