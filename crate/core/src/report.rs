@@ -371,7 +371,7 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
             loop {
                 let k = next_table.fetch_add(1, Ordering::AcqRel);
                 let Some(j) = items.len().checked_sub(k + 1) else { break };
-                let ts = NullTable::simulate_many(&benford, &items[j], *sims, *seed, 1);
+                let ts = NullTable::simulate_item(&benford, &items[j], *sims, *seed);
                 let mut m = made.0.lock().expect("made");
                 m.0.extend(ts);
                 m.1 += 1;

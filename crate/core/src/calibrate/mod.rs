@@ -451,22 +451,23 @@ impl NullTable {
             }
         }
         let mut scratch = Vec::new();
-        let mut by_n: HashMap<u64, NullTable> = want
-            .iter()
-            .zip(cols)
-            .map(|(&n, mut c)| {
-                for col in c.iter_mut() {
-                    sort_f64(col, &mut scratch);
-                }
-                (n, NullTable { n, sorted: c })
-            })
-            .collect();
-        // in the order asked (a size asked twice gets a copy)
-        let mut out = Vec::with_capacity(ns.len());
-        for (i, n) in ns.iter().enumerate() {
-            out.push(if ns[i + 1..].contains(n) { by_n[n].clone() } else { by_n.remove(n).expect("simulated") });
+        let tables = want.iter().zip(cols).map(|(&n, mut c)| {
+            for col in c.iter_mut() {
+                sort_f64(col, &mut scratch);
+            }
+            NullTable { n, sorted: c }
+        });
+        in_order(ns, tables.collect())
+    }
+
+    /// The tables of one item of [`table_items`]: on the honest paths together, or the one
+    /// other table.
+    pub fn simulate_item(benford: &Categorical, item: &[u64], sims: u32, seed: u64) -> Vec<NullTable> {
+        if item.iter().all(|&n| on_path(n)) {
+            NullTable::simulate_paths(benford, item, sims, seed)
+        } else {
+            item.iter().map(|&n| NullTable::simulate_own(benford, n, sims, seed)).collect()
         }
-        out
     }
 
     /// Simulate `sims` honest samples of size n from the stream (seed, "null", n).
@@ -500,32 +501,25 @@ impl NullTable {
     }
 
     /// Simulate the tables for every n in `ns` (in that order), split over up to `threads`
-    /// threads (one on wasm32, where the page spreads the sizes over Workers instead): the
-    /// tables on the honest paths together on the first ([`NullTable::simulate_paths`]), each
-    /// other one alone on the least loaded. Every table depends only on (seed, sims, n), so
-    /// the tables are the same whatever the split.
+    /// threads (one on wasm32, where the page spreads the sizes over Workers instead) by items
+    /// ([`table_items`]: the tables on the honest paths together, each other one alone). Every
+    /// table depends only on (seed, sims, n), so the tables are the same whatever the split.
     pub fn simulate_many(benford: &Categorical, ns: &[u64], sims: u32, seed: u64, threads: usize) -> Vec<NullTable> {
         let threads = if cfg!(target_arch = "wasm32") { 1 } else { threads.max(1) };
-        let (path, own): (Vec<u64>, Vec<u64>) = ns.iter().partition(|&&n| on_path(n));
-        // jobs: the tables on the honest paths together (about the cost of the largest), then
-        // each other table alone, the costliest first, each to the least loaded thread
-        let mut parts: Vec<(u64, Vec<u64>)> = vec![(0, Vec::new()); threads];
-        if let Some(&m) = path.iter().max() {
-            parts[0] = (table_cost(m) + 100 * path.len() as u64, path.clone());
-        }
-        let mut own = own;
-        own.sort_unstable_by(|a, b| table_cost(*b).cmp(&table_cost(*a)).then(b.cmp(a)));
-        for n in own {
+        let mut distinct = ns.to_vec();
+        distinct.sort_unstable();
+        distinct.dedup();
+        // the items ([`table_items`]), the costliest first, each to the least loaded thread
+        let mut items = table_items(&distinct);
+        let cost = |item: &Vec<u64>| table_cost(item.iter().copied().max().unwrap_or(0)) + 100 * (item.len() as u64 - 1);
+        items.sort_by_key(|item| std::cmp::Reverse(cost(item)));
+        let mut parts: Vec<(u64, Vec<Vec<u64>>)> = vec![(0, Vec::new()); threads];
+        for item in items {
             let i = (0..threads).min_by_key(|&i| (parts[i].0, i)).unwrap_or(0);
-            parts[i].0 += table_cost(n);
-            parts[i].1.push(n);
+            parts[i].0 += cost(&item);
+            parts[i].1.push(item);
         }
-        let run = |part: &[u64]| -> Vec<NullTable> {
-            let (p, o): (Vec<u64>, Vec<u64>) = part.iter().partition(|&&n| on_path(n));
-            let mut v = NullTable::simulate_paths(benford, &p, sims, seed);
-            v.extend(o.iter().map(|&n| NullTable::simulate_own(benford, n, sims, seed)));
-            v
-        };
+        let run = |part: &[Vec<u64>]| part.iter().flat_map(|item| NullTable::simulate_item(benford, item, sims, seed)).collect::<Vec<_>>();
         let done: Vec<NullTable> = if threads == 1 {
             run(&parts[0].1)
         } else {
@@ -538,8 +532,7 @@ impl NullTable {
                 out
             })
         };
-        let by_n: HashMap<u64, NullTable> = done.into_iter().map(|t| (t.n, t)).collect();
-        ns.iter().map(|n| by_n.get(n).cloned().unwrap_or_else(|| NullTable::simulate(benford, *n, sims, seed))).collect()
+        in_order(ns, done)
     }
 
     /// A table from its four sorted columns (mad, chi_square, ks, max_z), e.g. one simulated by
@@ -582,6 +575,16 @@ impl NullTable {
         let k = (k as usize).min(v.len() - 1);
         v[v.len() - 1 - k]
     }
+}
+
+/// `tables` (one per distinct size) in the order of `ns`; a size asked twice gets a copy.
+fn in_order(ns: &[u64], tables: Vec<NullTable>) -> Vec<NullTable> {
+    let mut by_n: HashMap<u64, NullTable> = tables.into_iter().map(|t| (t.n, t)).collect();
+    let mut out = Vec::with_capacity(ns.len());
+    for (i, n) in ns.iter().enumerate() {
+        out.push(if ns[i + 1..].contains(n) { by_n[n].clone() } else { by_n.remove(n).expect("simulated") });
+    }
+    out
 }
 
 /// Sort ascending in `f64::total_cmp` order, by an LSD radix sort over the bytes of the
