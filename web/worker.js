@@ -144,15 +144,14 @@ function fingerprintLater(id, blob) {
 }
 
 // ---------- a second Worker for the calibration ----------
-// A screen's null tables (one per invoice count it reads) are split in two shares of about
-// equal simulation cost: this Worker simulates one, a helper Worker (this same script, started
-// from this Worker's own blob: URL, sharing its compiled wasm module) the other, which comes
-// back as one transferred Float64Array. Each table is seeded by its own size, so the numbers
-// are those of one Worker. The power work per supplier is then split too: the helper takes
-// most suppliers (with this Worker's tables) while this Worker does the rest and the whole
-// file's battery. Jobs carry an id, so an answer always reaches the job that asked, even when
-// an earlier job was left behind (a Cancel while the file was read). If the helper cannot
-// start or fails, this Worker does the missing work itself: the same numbers, later.
+// A helper Worker (this same script, started from this Worker's own blob: URL, sharing its
+// compiled wasm module) simulates null tables while the file is read, shares a screen's null
+// tables and power work with this Worker (see helperCalibrate), and hashes the file once the
+// results are shown. Each table depends only on (seed, sims, size) and each power result on
+// the options, the tables and the supplier, so the numbers are those of one Worker. Jobs carry
+// an id, so an answer always reaches the job that asked, even when an earlier job was left
+// behind (a Cancel while the file was read). If the helper cannot start or fails, this Worker
+// does the missing work itself: the same numbers, later.
 let isHelper = false;
 let helperFailsIn = null; // tests only: 'tables' or 'powers' (see app.js)
 // in the helper, per calibrate job: where to stop (tablesStop, powersStop), and the waiter for
@@ -209,8 +208,8 @@ function stopHelper() {
   h.shares.clear();
 }
 
-// A job for the helper: its answer (tables or power results), or null (helper failed or
-// gone). When the helper is ready the message is posted at once, before this Worker goes on
+// A job for the helper: its answer (tables, power results, a fingerprint), or null (helper
+// failed or gone). When the helper is ready the message is posted at once, before this Worker goes on
 // with its own long synchronous work (an await first would hold the message back until then).
 function helperJob(h, msg, transfer) {
   const send = () => new Promise((resolve) => {
@@ -220,6 +219,10 @@ function helperJob(h, msg, transfer) {
   });
   if (h.ready && helper === h) return send();
   return h.started.then((ok) => (ok && helper === h ? send() : null));
+}
+// `p`, or null as soon as Cancel comes.
+function untilCancel(p) {
+  return Promise.race([p, new Promise((r) => { onCancel = () => r(null); })]).finally(() => { onCancel = null; });
 }
 const helperTables = (h, plan) => helperJob(h, { cmd: 'tables', ns: plan.theirs, sims: plan.sims, seed: plan.seed });
 // A screen's calibration shared with the helper by stealing (screenPlan(settings, true)):
@@ -297,7 +300,6 @@ async function screenSplit(settings, cancellable) {
     // then table items and power work from the back, until the two meet (each phase)
     const items = plan.items;
     const count = plan.share.count;
-    const race = (p) => Promise.race([p, new Promise((r) => { onCancel = () => r(null); })]).finally(() => { onCancel = null; });
     s.screenBatteries();
     const t1 = performance.now();
     s.screenWhole(); // the whole file's battery too, while the helper works
@@ -318,7 +320,7 @@ async function screenSplit(settings, cancellable) {
     }
     // the helper's items [0, tBack) (it may have done some of the last ones here too)
     tablesWanted = tBack;
-    const all = await race(Promise.race([new Promise((r) => { tablesIn = r; check(); }), job.done.then(() => false)]));
+    const all = await untilCancel(Promise.race([new Promise((r) => { tablesIn = r; check(); }), job.done.then(() => false)]));
     if (gone()) return stop();
     let helped = false;
     const tt = performance.now();
@@ -335,7 +337,7 @@ async function screenSplit(settings, cancellable) {
         await yieldNow(); // the helper's claims come in between
         if (gone()) return stop();
       }
-      helped = !!(await race(job.done));
+      helped = !!(await untilCancel(job.done));
       if (gone()) return stop();
     }
     // every chunk the helper finished goes in (after a failure too); screenFinish does the rest
@@ -362,8 +364,7 @@ async function screenSplit(settings, cancellable) {
   let tables = null;
   if (theirs && h.ready) {
     // waiting for the helper (already working on its share) beats simulating its share again
-    tables = await Promise.race([theirs, new Promise((r) => { onCancel = () => r(null); })]);
-    onCancel = null;
+    tables = await untilCancel(theirs);
     if (gone()) return stop();
   } else if (h) {
     stopHelper(); // not started in time: its share is simulated here; a fresh one next time
@@ -387,8 +388,7 @@ async function screenSplit(settings, cancellable) {
   }
   let theirPowers = null;
   if (powers) {
-    theirPowers = await Promise.race([powers, new Promise((r) => { onCancel = () => r(null); })]);
-    onCancel = null;
+    theirPowers = await untilCancel(powers);
     if (gone()) return stop();
     if (theirPowers) s.insertPowers(theirPowers); // else screenFinish does that share here
   }

@@ -217,11 +217,11 @@ fn tables_from_flat(ns: &[f64], flat: &[f64], sims: usize) -> Result<Vec<NullTab
 /// Supplier inputs from their flat form: per supplier amount_min, amount_max (in 1/10,000 of
 /// a unit) and the 90 first-two counts.
 fn inputs_from_flat(flat: &[f64]) -> Result<Vec<SupplierInput>, JsValue> {
-    if flat.len() % 92 != 0 {
+    if flat.len() % INPUT_WIDTH != 0 {
         return Err(err("supplier inputs of the wrong length"));
     }
     Ok(flat
-        .chunks_exact(92)
+        .chunks_exact(INPUT_WIDTH)
         .map(|c| SupplierInput {
             amount_min: Amount(c[0] as i64),
             amount_max: Amount(c[1] as i64),
@@ -230,8 +230,11 @@ fn inputs_from_flat(flat: &[f64]) -> Result<Vec<SupplierInput>, JsValue> {
         .collect())
 }
 
+/// Numbers per supplier in the flat form of [`inputs_from_flat`] (worker.js: INPUT_WIDTH).
+const INPUT_WIDTH: usize = 92;
+
 fn inputs_to_flat(inputs: &[&SupplierInput]) -> Vec<f64> {
-    let mut out = Vec::with_capacity(inputs.len() * 92);
+    let mut out = Vec::with_capacity(inputs.len() * INPUT_WIDTH);
     for s in inputs {
         out.push(s.amount_min.0 as f64);
         out.push(s.amount_max.0 as f64);
@@ -240,13 +243,8 @@ fn inputs_to_flat(inputs: &[&SupplierInput]) -> Vec<f64> {
     out
 }
 
-/// The helper Worker's share of a screen's power work (`Session.powerPlan`): with the
-/// calibration options, the other Worker's null tables (`ns`, `flat`) and its own from
-/// `nullTables`, the power results of the suppliers `inputs` (flat, as `PowerResult::push_flat`).
-/// Every result depends only on the options, the tables and the supplier, so they are what the
-/// first Worker would have computed.
-/// SHA-256 of a file hashed chunk by chunk in the helper Worker while the screening Worker
-/// reads it (`Session.hashElsewhere`).
+/// SHA-256 of a file, chunk by chunk, in the helper Worker once the screening Worker has shown
+/// the results (`Session.hashElsewhere`).
 #[wasm_bindgen]
 pub struct Hasher(digitdrift_core::export::Fingerprint);
 
@@ -318,30 +316,16 @@ pub fn power_chunk(options: JsValue, inputs: &[f64]) -> Result<Vec<f64>, JsValue
     })
 }
 
+/// The helper Worker's share of a screen's power work (`Session.powerPlan`): with the
+/// calibration options, the other Worker's null tables (`ns`, `flat`, kept beside its own from
+/// `nullTables`), the power results of the suppliers `inputs` (flat, as `powerChunk`). Every
+/// result depends only on the options, the tables and the supplier, so they are what the first
+/// Worker would have computed.
 #[wasm_bindgen(js_name = powerShare)]
 pub fn power_share(options: JsValue, ns: &[f64], flat: &[f64], inputs: &[f64]) -> Result<Vec<f64>, JsValue> {
-    let o: CalibrationOptions = serde_wasm_bindgen::from_value(options).map_err(err)?;
-    let mut cal = Calibrator::new(o);
-    let sims = cal.options().sims;
-    for t in tables_from_flat(ns, flat, sims as usize)? {
-        cal.insert_table(t);
-    }
-    let seed = cal.options().seed;
-    HELPER_TABLES.with(|h| {
-        if let Some((s, sd, ts)) = h.borrow().as_ref() {
-            if *s == sims && *sd == seed {
-                for t in ts {
-                    cal.insert_table(t.clone());
-                }
-            }
-        }
-    });
-    let inputs = inputs_from_flat(inputs)?;
-    let mut out = Vec::new();
-    for r in cal.powers(&inputs, 1) {
-        r.push_flat(&mut out);
-    }
-    Ok(out)
+    let o: CalibrationOptions = serde_wasm_bindgen::from_value(options.clone()).map_err(err)?;
+    hold_in_helper(o.sims, o.seed, tables_from_flat(ns, flat, o.sims as usize)?);
+    power_chunk(options, inputs)
 }
 
 #[wasm_bindgen]
