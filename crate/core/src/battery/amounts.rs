@@ -73,7 +73,7 @@ pub struct DuplicateGroup {
     pub invoices: Vec<usize>,
 }
 
-#[derive(Clone, Debug, Serialize, PartialEq)]
+#[derive(Clone, Debug, Default, Serialize, PartialEq)]
 pub struct Duplicates {
     pub same_amount_date_groups: u64,
     pub same_amount_date_invoices: u64,
@@ -449,16 +449,7 @@ impl DuplicatesMerge {
     /// Add one part's duplicates; `to_whole(i)` is the population index of the part's member i
     /// (increasing in i).
     pub fn add(&mut self, part: &Duplicates, to_whole: impl Fn(usize) -> usize, keep: usize) {
-        let d = self.d.get_or_insert_with(|| Duplicates {
-            same_amount_date_groups: 0,
-            same_amount_date_invoices: 0,
-            same_number_groups: 0,
-            same_number_invoices: 0,
-            undated: 0,
-            unnumbered: 0,
-            groups: Vec::new(),
-            groups_truncated: false,
-        });
+        let d = self.d.get_or_insert_with(Duplicates::default);
         d.same_amount_date_groups += part.same_amount_date_groups;
         d.same_amount_date_invoices += part.same_amount_date_invoices;
         d.same_number_groups += part.same_number_groups;
