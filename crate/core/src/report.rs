@@ -108,7 +108,7 @@ pub fn population<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &Scr
 }
 
 /// As [`population`], with the population's duplicate findings known already (see
-/// [`battery::run_with`]).
+/// [`battery::run_with_totals`]).
 pub fn population_with<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &ScreenOptions, known: Option<Duplicates>) -> SupplierResult {
     let (tests, t) = battery::run_with_totals(invs, &opts.battery, known);
     SupplierResult {

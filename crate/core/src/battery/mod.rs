@@ -360,14 +360,7 @@ pub(crate) fn for_each_sorted_window<M: Members + ?Sized>(invoices: &M, mut f: i
 
 /// Run the selected tests over one population.
 pub fn run<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions) -> Battery {
-    run_with(invoices, opts, None)
-}
-
-/// As [`run`], with the population's duplicate findings known already (`known`: merged from
-/// the parts it is a disjoint union of, by [`DuplicatesMerge`]; the whole file from its
-/// suppliers), which then are not searched again.
-pub fn run_with<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions, known: Option<Duplicates>) -> Battery {
-    run_with_totals(invoices, opts, known).0
+    run_with_totals(invoices, opts, None).0
 }
 
 /// A population's totals, gathered in the battery's pass over it: the sum of the amounts
@@ -411,8 +404,10 @@ impl TotalsAcc {
     }
 }
 
-/// As [`run_with`], with the population's [`Totals`] from the same pass (one pass less over
-/// members read through an index list).
+/// As [`run`], with the population's [`Totals`] from the same pass (one pass less over members
+/// read through an index list), and its duplicate findings known already when `known` is
+/// given (merged from the parts it is a disjoint union of, by [`DuplicatesMerge`]; the whole
+/// file from its suppliers), which then are not searched again.
 pub fn run_with_totals<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions, known: Option<Duplicates>) -> (Battery, Totals) {
     let t = opts.tests;
     let mut totals = TotalsAcc::new();
