@@ -11,6 +11,7 @@ use digitdrift_core::calibrate::power::PowerResult;
 use digitdrift_core::calibrate::{CalibrationOptions, Calibrator, Categorical, NullTable, SupplierInput};
 use digitdrift_core::{report, Amount, Invoice};
 use serde::Deserialize;
+use std::sync::Arc;
 use wasm_bindgen::prelude::*;
 
 pub use chart::*;
@@ -153,6 +154,7 @@ pub fn null_tables(ns: &[f64], sims: u32, seed: f64) -> Vec<f64> {
 /// Add tables to the helper's (`HELPER_TABLES`), replacing them if they are for another seed
 /// or number of simulations.
 fn hold_in_helper(sims: u32, seed: u64, tables: Vec<NullTable>) {
+    let tables: Vec<Arc<NullTable>> = tables.into_iter().map(Arc::new).collect();
     HELPER_TABLES.with(|h| {
         let mut h = h.borrow_mut();
         match h.as_mut() {
@@ -184,8 +186,9 @@ pub fn likely_tables(settings: JsValue) -> Result<JsValue, JsValue> {
 }
 
 thread_local! {
-    /// The helper Worker's last `nullTables` (sims, seed, tables), for `powerShare`.
-    static HELPER_TABLES: std::cell::RefCell<Option<(u32, u64, Vec<NullTable>)>> = const { std::cell::RefCell::new(None) };
+    /// The helper Worker's null tables (sims, seed, tables) from `nullTables` and those it was
+    /// given, for `powerChunk` (shared with its calibrator, not copied).
+    static HELPER_TABLES: std::cell::RefCell<Option<(u32, u64, Vec<Arc<NullTable>>)>> = const { std::cell::RefCell::new(None) };
 }
 
 /// Tables in their flat form: per table its four sorted columns, one after the other.
@@ -302,7 +305,7 @@ pub fn power_chunk(options: JsValue, inputs: &[f64]) -> Result<Vec<f64>, JsValue
                 if *s == o.sims && *sd == o.seed {
                     for t in ts {
                         if cal.cached_table(t.n).is_none() {
-                            cal.insert_table(t.clone());
+                            cal.insert_shared_table(Arc::clone(t));
                         }
                     }
                 }

@@ -939,8 +939,13 @@ impl Calibrator {
     /// Put a table simulated elsewhere (e.g. by another Worker) in the cache. It must be the
     /// table of this calibrator's seed and sims at `t.n`; panics on a different number of sims.
     pub fn insert_table(&mut self, t: NullTable) {
+        self.insert_shared_table(Arc::new(t));
+    }
+
+    /// As [`Calibrator::insert_table`], for a table held elsewhere too (not copied).
+    pub fn insert_shared_table(&mut self, t: Arc<NullTable>) {
         assert_eq!(t.sims(), self.opts.sims as usize, "table with this calibrator's sims");
-        self.tables.insert(t.n, Arc::new(t));
+        self.tables.insert(t.n, t);
     }
 
     /// Simulate every missing table for suppliers of sizes `ns` at once, over up to `threads`
