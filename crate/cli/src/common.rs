@@ -33,8 +33,34 @@ pub fn intake_options(a: &Args) -> Result<IntakeOptions, String> {
     Ok(o)
 }
 
-/// Stream a file (or `-` for standard input) through the intake in 1 MiB chunks.
+/// Read a ledger file (or `-` for standard input) through the intake.
 pub fn read_ledger(path: &str, opts: IntakeOptions) -> Result<IntakeResult, String> {
+    read_ledger_with(path, opts, || ()).0
+}
+
+/// [`read_ledger`] with other work (`first`) done on a second thread meanwhile. A regular file
+/// of at least two segments is read on both threads once `first` is done
+/// ([`digitdrift_core::intake::read_split`]: the same result as one pass); anything else is
+/// streamed in 1 MiB chunks on this thread.
+pub fn read_ledger_with<T: Send>(path: &str, opts: IntakeOptions, first: impl FnOnce() -> T + Send) -> (Result<IntakeResult, String>, T) {
+    #[cfg(unix)]
+    if path != "-" {
+        if let Ok(f) = std::fs::File::open(path) {
+            if f.metadata().is_ok_and(|m| m.is_file() && m.len() >= 2 * digitdrift_core::intake::SEGMENT) {
+                let (r, out) = digitdrift_core::intake::read_split(&f, opts, digitdrift_core::intake::SEGMENT, first);
+                return (r.map(|(r, _)| r).map_err(|e| format!("{path}: {e}")), out);
+            }
+        }
+    }
+    std::thread::scope(|sc| {
+        let other = sc.spawn(first);
+        let r = stream_ledger(path, opts);
+        (r, other.join().expect("second thread"))
+    })
+}
+
+/// Stream a file (or `-` for standard input) through the intake in 1 MiB chunks.
+fn stream_ledger(path: &str, opts: IntakeOptions) -> Result<IntakeResult, String> {
     let mut intake = Intake::new(opts);
     let mut src: Box<dyn Read> = if path == "-" {
         Box::new(std::io::stdin())

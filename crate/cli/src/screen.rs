@@ -1,7 +1,7 @@
 //! `digitdrift screen`: the batch screen of a ledger.
 
 use crate::args::Args;
-use crate::common::{format_flag, intake_options, read_ledger};
+use crate::common::{format_flag, intake_options, read_ledger_with};
 use digitdrift_core::battery::TestSet;
 use digitdrift_core::report::{self, ScreenOptions};
 use digitdrift_core::Amount;
@@ -83,19 +83,16 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
         }
     }
     // The null tables almost every screen reads (the power-curve checkpoints) are simulated on
-    // a second thread while this one reads the file; the same tables as later (seeded by size).
+    // a second thread while this one reads the file (which that thread then helps to read); the
+    // same tables as later (seeded by size).
     let cal = sopts.calibration.as_ref().map(|c| digitdrift_core::calibrate::Calibrator::new(c.clone()));
-    let (res, cal) = std::thread::scope(|sc| {
-        let ahead = sc.spawn(move || {
-            let mut cal = cal;
-            if let Some(c) = cal.as_mut() {
-                let likely = c.likely_tables();
-                c.prepare(&likely, 1);
-            }
-            cal
-        });
-        let res = read_ledger(file, opts);
-        (res, ahead.join().expect("null tables thread"))
+    let (res, cal) = read_ledger_with(file, opts, move || {
+        let mut cal = cal;
+        if let Some(c) = cal.as_mut() {
+            let likely = c.likely_tables();
+            c.prepare(&likely, 1);
+        }
+        cal
     });
     let res = res?;
     let rep = report::screen_with(&res.ledger, &res.info, min, &sopts, cal);

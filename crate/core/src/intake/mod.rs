@@ -26,9 +26,11 @@ pub mod date;
 mod intern;
 pub mod scan;
 pub mod sniff;
+mod split;
 
 pub use amount::{parse_amount, trim_cell, Hint};
 pub use date::{civil_from_days, days_from_civil, format_date, parse_date, DateCell};
+pub use split::{read_split, read_split_parts, ByteSource, ReadError, SplitStats, SEGMENT};
 
 use crate::amount::Amount;
 use crate::ledger::{fnv1a, supplier_key, ExclusionReason, Invoice, Ledger, Supplier, NO_DATE};
@@ -352,6 +354,7 @@ pub(crate) fn push_bounded(v: &mut Vec<Invoice>, inv: Invoice) {
 }
 
 /// What the head of the file decided.
+#[derive(Clone)]
 struct Setup {
     enc: Enc,
     delim: u8,
@@ -408,6 +411,12 @@ struct Run {
     total_prefixes: Vec<[u8; 3]>,
     total_first: [bool; 256],
     preview: Option<Vec<PreviewRow>>,
+    /// A row with no supplier and a readable non-zero amount was met: whether it is a total
+    /// depends on the sums of the rows above (a part read on its own cannot tell; see
+    /// [`split`]).
+    sum_rows: bool,
+    /// A totals row reset the running sum.
+    reset: bool,
 }
 
 fn decode_name(raw: &[u8], recoded: &mut u64) -> String {
@@ -743,6 +752,8 @@ impl Run {
             total_prefixes: Vec::new(),
             total_first: [false; 256],
             preview: if preview { Some(Vec::new()) } else { None },
+            sum_rows: false,
+            reset: false,
         };
         run.decode(&raw[bom..], eof);
         run.setup = analyse_head(&run.work, eof, enc, opts)?;
@@ -939,6 +950,7 @@ impl Run {
         if self.is_totals_word(rec) {
             self.run_sum = 0;
             self.run_rows = 0;
+            self.reset = true;
             exclude!(ExclusionReason::TotalsLine);
         }
         if width > self.setup.width {
@@ -953,9 +965,11 @@ impl Run {
             // A line with no supplier whose amount is the sum of the rows above is a total.
             if let Some((a, _)) = parse_amount(raw_amount, self.conv) {
                 let v = a.0 as i128;
+                self.sum_rows |= v != 0;
                 if v != 0 && ((self.run_rows > 0 && v == self.run_sum) || (self.grand_rows > 0 && v == self.grand_sum)) {
                     self.run_sum = 0;
                     self.run_rows = 0;
+                    self.reset = true;
                     exclude!(ExclusionReason::TotalsLine);
                 }
             }
