@@ -180,3 +180,18 @@ fn catalogue_cases_repeated_read_in_segments_equal_one_pass() {
     }
     assert!(joined > 0);
 }
+
+/// Read from a file on disk (positioned reads, as the CLI does) the same as from memory.
+#[cfg(unix)]
+#[test]
+fn file_on_disk_reads_as_in_memory() {
+    let bytes = ledger(30_000, 5, false, false, false);
+    let path = std::env::temp_dir().join(format!("digitdrift-split-{}.csv", std::process::id()));
+    std::fs::write(&path, &bytes).unwrap();
+    let f = std::fs::File::open(&path).unwrap();
+    let (r, ()) = read_split(&f, IntakeOptions::default(), 64 << 10, || ());
+    std::fs::remove_file(&path).ok();
+    let (r, st) = r.unwrap();
+    assert!(st.segments > 4 && st.in_turn_from.is_none(), "{st:?}");
+    assert_eq!(show(&Ok(r)), show(&one_pass(&bytes, &IntakeOptions::default())));
+}
