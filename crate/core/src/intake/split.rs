@@ -91,14 +91,235 @@ pub struct SplitStats {
     pub in_turn_from: Option<usize>,
 }
 
-/// A segment read on its own.
-enum Part {
+/// A segment read on its own (see the module text), to be joined by [`Intake::join_part`]; on
+/// the page read by another Worker and handed over as bytes ([`Part::to_bytes`]).
+pub struct Part(PartKind);
+
+enum PartKind {
     /// No line starts in it.
     Empty,
-    /// The part and the bytes it was fed.
-    Read(Box<Run>, u64),
-    /// It could not stand alone (see the module text).
+    Read(Box<PartData>),
+    /// It could not stand alone (an error, or the bytes ended before its end).
     Unfit,
+}
+
+/// What joining reads of a part read on its own (lines numbered from 1, suppliers numbered in
+/// the part).
+struct PartData {
+    /// Bytes it was fed.
+    fed: u64,
+    /// The day/month order it started from, and the one it ended with.
+    start_order: Option<DateOrder>,
+    order: Option<DateOrder>,
+    conv: Option<DecimalConvention>,
+    /// Rows held back for the decimal convention (none when the convention was known).
+    deferred: usize,
+    sum_rows: bool,
+    recoded_names: u64,
+    ledger: Ledger,
+    date_alts: Vec<(u32, i32)>,
+    amb_date: Vec<String>,
+    saw_iso: bool,
+    bad_dates: u64,
+    run_sum: i128,
+    run_rows: u64,
+    reset: bool,
+    grand_sum: i128,
+    grand_rows: u64,
+    /// The next line's number.
+    line: u64,
+    /// A record left open at its end.
+    open: Vec<u8>,
+}
+
+/// Cuts segment k out of the bytes pushed from its nominal start (k · segment) on: skips to
+/// the first line start at or after it (none for segment 0), passes on the bytes up to and
+/// including the first LF at or after the next segment's nominal start, then is done.
+pub struct SegmentCut {
+    /// File offset of the next byte pushed.
+    at: u64,
+    /// The segment's bytes have begun (a line start was found).
+    begun: bool,
+    /// The first LF at or after this offset ends the segment.
+    end: u64,
+    done: bool,
+}
+
+impl SegmentCut {
+    /// Segment k of `segment` bytes; the bytes pushed must start at `k * segment`.
+    pub fn new(segment: u64, k: usize) -> SegmentCut {
+        let from = k as u64 * segment;
+        SegmentCut { at: from, begun: k == 0, end: from.saturating_add(segment), done: false }
+    }
+
+    /// Everything from segment k's start to the end of the file.
+    pub fn rest(segment: u64, k: usize) -> SegmentCut {
+        SegmentCut { end: u64::MAX, ..SegmentCut::new(segment, k) }
+    }
+
+    /// The file offset the next pushed bytes must start at.
+    pub fn offset(&self) -> u64 {
+        self.at
+    }
+
+    /// The segment has ended (no more bytes belong to it).
+    pub fn done(&self) -> bool {
+        self.done
+    }
+
+    /// The part of `chunk` (the next bytes of the file) that belongs to the segment.
+    pub fn cut<'a>(&mut self, chunk: &'a [u8]) -> &'a [u8] {
+        if self.done {
+            return &[];
+        }
+        let base = self.at;
+        self.at += chunk.len() as u64;
+        let mut from = 0usize;
+        if !self.begun {
+            match chunk.iter().position(|&b| b == b'\n') {
+                Some(i) => {
+                    from = i + 1;
+                    self.begun = true;
+                    // the line start found lies past the end: it is the next segment's
+                    if base + from as u64 > self.end {
+                        self.done = true;
+                        return &[];
+                    }
+                }
+                None => return &[],
+            }
+        }
+        // the first LF at or after `end` in this chunk ends the segment
+        let look = (self.end.saturating_sub(base) as usize).max(from);
+        if look < chunk.len() {
+            if let Some(i) = chunk[look..].iter().position(|&b| b == b'\n') {
+                self.done = true;
+                return &chunk[from..look + i + 1];
+            }
+        }
+        &chunk[from..]
+    }
+}
+
+/// What a part starts from besides the head: the conventions the intake had reached when the
+/// first segment was in (see [`Intake::part_settings`]).
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct PartSettings {
+    pub decimal: DecimalConvention,
+    pub date_order: Option<DateOrder>,
+}
+
+/// Reads one segment into a [`Part`]: push the file's bytes from the segment's nominal start
+/// with [`PartReader::feed`] until it wants no more (or the file ends), then
+/// [`PartReader::finish`].
+pub struct PartReader {
+    run: Box<Run>,
+    cut: SegmentCut,
+    fed: u64,
+    start_order: Option<DateOrder>,
+    failed: bool,
+}
+
+impl PartReader {
+    /// A reader of segment k for another thread or Worker that has only the file's head (its
+    /// first 64 KiB, or all of it if shorter, exactly as the intake was fed them), the intake
+    /// options and the settings the intake reported.
+    pub fn from_head(head: &[u8], opts: &IntakeOptions, settings: PartSettings, segment: u64, k: usize) -> Result<PartReader, IntakeError> {
+        let head = &head[..head.len().min(SNIFF_LEN)];
+        let run = Run::start(head, false, opts, false)?;
+        let mut tpl = run.clone_part();
+        tpl.conv = Some(settings.decimal);
+        tpl.order = settings.date_order;
+        Ok(PartReader::of(&tpl, segment, k))
+    }
+
+    fn of(tpl: &Run, segment: u64, k: usize) -> PartReader {
+        PartReader { run: tpl.clone_part(), cut: SegmentCut::new(segment, k), fed: 0, start_order: tpl.order, failed: false }
+    }
+
+    /// The file offset the next pushed bytes must start at.
+    pub fn offset(&self) -> u64 {
+        self.cut.offset()
+    }
+
+    /// Push the next bytes of the file; false once the segment has all it needs.
+    pub fn feed(&mut self, chunk: &[u8]) -> bool {
+        let c = self.cut.cut(chunk);
+        if !c.is_empty() && !self.failed {
+            self.fed += c.len() as u64;
+            self.failed = self.run.push(c, false).is_err();
+        }
+        !self.cut.done() && !self.failed
+    }
+
+    /// The part. `file_ended`: the file has no bytes after the last ones pushed (the segment
+    /// then ends with it).
+    pub fn finish(mut self, file_ended: bool) -> Part {
+        if self.failed {
+            return Part(PartKind::Unfit);
+        }
+        if self.fed == 0 {
+            return Part(if self.cut.done() || file_ended { PartKind::Empty } else { PartKind::Unfit });
+        }
+        // a segment that did not reach its end LF ends with the file (or cannot stand alone)
+        if !self.cut.done() && (!file_ended || self.run.push(&[], true).is_err()) {
+            return Part(PartKind::Unfit);
+        }
+        let r = *self.run;
+        Part(PartKind::Read(Box::new(PartData {
+            fed: self.fed,
+            start_order: self.start_order,
+            order: r.order,
+            conv: r.conv,
+            deferred: r.deferred.len(),
+            sum_rows: r.sum_rows,
+            recoded_names: r.recoded_names,
+            ledger: r.ledger,
+            date_alts: r.date_alts,
+            amb_date: r.amb_date,
+            saw_iso: r.saw_iso,
+            bad_dates: r.bad_dates,
+            run_sum: r.run_sum,
+            run_rows: r.run_rows,
+            reset: r.reset,
+            grand_sum: r.grand_sum,
+            grand_rows: r.grand_rows,
+            line: r.line,
+            open: r.work[r.pos..].to_vec(),
+        })))
+    }
+}
+
+/// Feed segment k (from a [`SegmentCut`]) to `feed`. Returns whether the file ended within it.
+fn feed_cut<S: ByteSource + ?Sized>(src: &S, mut cut: SegmentCut, buf: &mut Vec<u8>, feed: &mut dyn FnMut(&[u8]) -> Result<(), IntakeError>) -> Result<bool, ReadError> {
+    while !cut.done() {
+        let c = read_chunk(src, cut.offset(), buf).map_err(ReadError::Io)?;
+        if c.is_empty() {
+            return Ok(true);
+        }
+        let c = cut.cut(c);
+        if !c.is_empty() {
+            feed(c).map_err(ReadError::Intake)?;
+        }
+    }
+    Ok(false)
+}
+
+/// Segment k read on its own into a part (from `tpl`'s settings).
+fn read_part<S: ByteSource + ?Sized>(src: &S, segment: u64, k: usize, tpl: &Run, buf: &mut Vec<u8>) -> Part {
+    let mut r = PartReader::of(tpl, segment, k);
+    loop {
+        let c = match read_chunk(src, r.offset(), buf) {
+            Ok(c) => c,
+            Err(_) => return Part(PartKind::Unfit),
+        };
+        if c.is_empty() {
+            return r.finish(true);
+        }
+        if !r.feed(c) {
+            return r.finish(false);
+        }
+    }
 }
 
 /// Read `src` like [`Intake::feed`] in order then [`Intake::finish`], on two threads: this one
@@ -177,15 +398,13 @@ fn split_read<S: ByteSource + ?Sized, T: Send>(
             let mut intake = Intake::new(opts);
             intake.set_size_hint(size);
             let mut stats = SplitStats { segments, ..SplitStats::default() };
-            let fed = feed_segment(src, segment, 0, &mut buf, &mut |c| intake.feed(c))?;
-            let tpl = if segments > 1 && fed.is_some() { intake.template() } else { None };
+            let ended = feed_cut(src, SegmentCut::new(segment, 0), &mut buf, &mut |c| intake.feed(c))?;
+            let tpl = if segments > 1 && !ended { intake.template() } else { None };
             let Some(tpl) = tpl else {
                 publish(None);
                 stats.segments = 1;
-                if segments > 1 {
-                    if let Some(from) = fed {
-                        feed_from(src, from, &mut buf, &mut |c| intake.feed(c))?;
-                    }
+                if !ended {
+                    feed_cut(src, SegmentCut::rest(segment, 1), &mut buf, &mut |c| intake.feed(c))?;
                 }
                 return Ok((intake.finish().map_err(ReadError::Intake)?, stats));
             };
@@ -203,10 +422,12 @@ fn split_read<S: ByteSource + ?Sized, T: Send>(
                             None => break,
                         }
                     };
-                    if !intake.join(part, &tpl, &mut stats) {
+                    let read = matches!(part.0, PartKind::Read(..));
+                    if !intake.join_part(part) {
                         failed = Some(joined);
                         break;
                     }
+                    stats.joined += read as usize;
                     joined += 1;
                 }
                 if failed.is_some() {
@@ -226,7 +447,7 @@ fn split_read<S: ByteSource + ?Sized, T: Send>(
                 }
                 if direct && k == joined {
                     // everything before is in: read it in turn, into the intake itself
-                    feed_segment(src, segment, k, &mut buf, &mut |c| intake.feed(c))?;
+                    feed_cut(src, SegmentCut::new(segment, k), &mut buf, &mut |c| intake.feed(c))?;
                     joined += 1;
                 } else {
                     let part = read_part(src, segment, k, &tpl, &mut buf);
@@ -236,9 +457,7 @@ fn split_read<S: ByteSource + ?Sized, T: Send>(
             stop.store(true, Ordering::Release);
             if let Some(k) = in_turn {
                 stats.in_turn_from = Some(k);
-                if let Some(from) = segment_start(src, segment, k, &mut buf).map_err(ReadError::Io)? {
-                    feed_from(src, from, &mut buf, &mut |c| intake.feed(c))?;
-                }
+                feed_cut(src, SegmentCut::rest(segment, k), &mut buf, &mut |c| intake.feed(c))?;
             }
             Ok((intake.finish().map_err(ReadError::Intake)?, stats))
         })();
@@ -251,7 +470,7 @@ fn split_read<S: ByteSource + ?Sized, T: Send>(
     })
 }
 
-/// Read `len` bytes or fewer at `at` into `buf` (resized to `READ`).
+/// Read up to `READ` bytes at `at` into `buf`.
 fn read_chunk<'b, S: ByteSource + ?Sized>(src: &S, at: u64, buf: &'b mut Vec<u8>) -> std::io::Result<&'b [u8]> {
     buf.resize(READ, 0);
     loop {
@@ -260,114 +479,6 @@ fn read_chunk<'b, S: ByteSource + ?Sized>(src: &S, at: u64, buf: &'b mut Vec<u8>
             Err(e) if e.kind() == std::io::ErrorKind::Interrupted => continue,
             Err(e) => return Err(e),
         }
-    }
-}
-
-/// The first line start at or after `from`: the byte after the first LF there (None: no LF).
-fn line_start<S: ByteSource + ?Sized>(src: &S, from: u64, buf: &mut Vec<u8>) -> std::io::Result<Option<u64>> {
-    let mut at = from;
-    loop {
-        let c = read_chunk(src, at, buf)?;
-        if c.is_empty() {
-            return Ok(None);
-        }
-        if let Some(i) = c.iter().position(|&b| b == b'\n') {
-            return Ok(Some(at + i as u64 + 1));
-        }
-        at += c.len() as u64;
-    }
-}
-
-/// Where segment k starts (None: no line starts in it or after).
-fn segment_start<S: ByteSource + ?Sized>(src: &S, segment: u64, k: usize, buf: &mut Vec<u8>) -> std::io::Result<Option<u64>> {
-    if k == 0 {
-        return Ok(Some(0));
-    }
-    line_start(src, k as u64 * segment, buf)
-}
-
-/// Feed segment k's bytes: from its start to the next segment's (or the end). Returns where
-/// the next segment starts (None: the file ends in this one), or the error `feed` gave.
-fn feed_segment<S: ByteSource + ?Sized>(
-    src: &S,
-    segment: u64,
-    k: usize,
-    buf: &mut Vec<u8>,
-    feed: &mut dyn FnMut(&[u8]) -> Result<(), IntakeError>,
-) -> Result<Option<u64>, ReadError> {
-    let Some(mut at) = segment_start(src, segment, k, buf).map_err(ReadError::Io)? else { return Ok(None) };
-    let end = (k as u64 + 1) * segment; // the next segment starts at the first line start from here
-    if at > end {
-        return Ok(Some(at)); // the line start found is the next segment's too: nothing here
-    }
-    loop {
-        let c = read_chunk(src, at, buf).map_err(ReadError::Io)?;
-        if c.is_empty() {
-            return Ok(None);
-        }
-        let n = c.len() as u64;
-        if at + n > end {
-            let from = end.saturating_sub(at) as usize;
-            if let Some(i) = c[from..].iter().position(|&b| b == b'\n') {
-                let cut = from + i + 1;
-                feed(&c[..cut]).map_err(ReadError::Intake)?;
-                return Ok(Some(at + cut as u64));
-            }
-        }
-        feed(c).map_err(ReadError::Intake)?;
-        at += n;
-        if at > end {
-            // the rest of this chunk had no LF past the end: the next LF ends the segment
-            return feed_to_line_end(src, at, buf, feed);
-        }
-    }
-}
-
-/// Feed from `at` up to and including the next LF (or the end).
-fn feed_to_line_end<S: ByteSource + ?Sized>(src: &S, mut at: u64, buf: &mut Vec<u8>, feed: &mut dyn FnMut(&[u8]) -> Result<(), IntakeError>) -> Result<Option<u64>, ReadError> {
-    loop {
-        let c = read_chunk(src, at, buf).map_err(ReadError::Io)?;
-        if c.is_empty() {
-            return Ok(None);
-        }
-        if let Some(i) = c.iter().position(|&b| b == b'\n') {
-            feed(&c[..=i]).map_err(ReadError::Intake)?;
-            return Ok(Some(at + i as u64 + 1));
-        }
-        feed(c).map_err(ReadError::Intake)?;
-        at += c.len() as u64;
-    }
-}
-
-/// Feed everything from `at` to the end.
-fn feed_from<S: ByteSource + ?Sized>(src: &S, mut at: u64, buf: &mut Vec<u8>, feed: &mut dyn FnMut(&[u8]) -> Result<(), IntakeError>) -> Result<(), ReadError> {
-    loop {
-        let c = read_chunk(src, at, buf).map_err(ReadError::Io)?;
-        if c.is_empty() {
-            return Ok(());
-        }
-        feed(c).map_err(ReadError::Intake)?;
-        at += c.len() as u64;
-    }
-}
-
-/// Segment k read on its own into a part (from `tpl`'s settings); the last one to its end.
-fn read_part<S: ByteSource + ?Sized>(src: &S, segment: u64, k: usize, tpl: &Run, buf: &mut Vec<u8>) -> Part {
-    let mut run = tpl.clone_part();
-    let mut fed = 0u64;
-    let r = feed_segment(src, segment, k, buf, &mut |c| {
-        fed += c.len() as u64;
-        run.push(c, false)
-    });
-    match r {
-        Ok(_) if fed == 0 => Part::Empty,
-        Ok(end) => {
-            if end.is_none() && run.push(&[], true).is_err() {
-                return Part::Unfit;
-            }
-            Part::Read(run, fed)
-        }
-        Err(_) => Part::Unfit,
     }
 }
 
@@ -381,18 +492,34 @@ impl Intake {
         }
     }
 
-    /// Join the next segment's part; false (nothing changed) when it cannot be joined.
-    fn join(&mut self, part: Part, tpl: &Run, stats: &mut SplitStats) -> bool {
+    /// What another Worker needs besides the head and the options to read parts of this file
+    /// ([`PartReader::from_head`]); None when the file must be read in turn (see the module
+    /// text). Ask once the first segment is in.
+    pub fn part_settings(&self) -> Option<PartSettings> {
+        let t = self.template()?;
+        Some(PartSettings { decimal: t.conv?, date_order: t.order })
+    }
+
+    /// A reader of segment k into a part with this intake's settings (None as for
+    /// [`Intake::part_settings`]).
+    pub fn part_reader(&self, segment: u64, k: usize) -> Option<PartReader> {
+        self.template().map(|t| PartReader::of(&t, segment, k))
+    }
+
+    /// Join the next segment's part: true when it is in (or was empty); false, with nothing
+    /// changed, when it cannot be joined — then read the rest of the file in turn from that
+    /// segment's start ([`SegmentCut::rest`]).
+    pub fn join_part(&mut self, part: Part) -> bool {
         let State::Run(run) = &mut self.state else { return false };
-        match part {
-            Part::Empty => true,
-            Part::Unfit => false,
-            Part::Read(p, fed) => {
-                if !run.join(*p, tpl) {
+        match part.0 {
+            PartKind::Empty => true,
+            PartKind::Unfit => false,
+            PartKind::Read(p) => {
+                let fed = p.fed;
+                if !run.join(*p) {
                     return false;
                 }
                 self.bytes_fed += fed;
-                stats.joined += 1;
                 true
             }
         }
@@ -438,15 +565,15 @@ impl Run {
         })
     }
 
-    /// Append part `p` (read from `tpl`'s settings) when reading it in turn could not have
-    /// differed (see the module text); false, leaving self as it was, otherwise.
-    fn join(&mut self, p: Run, tpl: &Run) -> bool {
+    /// Append part `p` when reading it in turn could not have differed (see the module text);
+    /// false, leaving self as it was, otherwise.
+    fn join(&mut self, p: PartData) -> bool {
         let fits = self.pos == self.work.len()
             && self.conv.is_some()
             && p.conv == self.conv
-            && self.order == tpl.order
-            && p.order == tpl.order
-            && p.deferred.is_empty()
+            && self.order == p.start_order
+            && p.order == p.start_order
+            && p.deferred == 0
             && !p.sum_rows
             && p.recoded_names == 0;
         if !fits {
@@ -509,8 +636,266 @@ impl Run {
         self.grand_rows += p.grand_rows;
         self.line = p.line + off;
         // a record the part left open continues in the next segment
-        self.work = p.work;
-        self.pos = p.pos;
+        self.work = p.open;
+        self.pos = 0;
         true
     }
+}
+
+// ---------------------------------------------------------------- parts as bytes
+
+const PART_MAGIC: &[u8; 4] = b"ddp1";
+
+fn order_code(o: Option<DateOrder>) -> u8 {
+    match o {
+        None => 0,
+        Some(DateOrder::Dmy) => 1,
+        Some(DateOrder::Mdy) => 2,
+        Some(DateOrder::Ymd) => 3,
+    }
+}
+
+fn order_of(c: u8) -> Option<Option<DateOrder>> {
+    Some(match c {
+        0 => None,
+        1 => Some(DateOrder::Dmy),
+        2 => Some(DateOrder::Mdy),
+        3 => Some(DateOrder::Ymd),
+        _ => return None,
+    })
+}
+
+/// Little-endian writer.
+struct Out(Vec<u8>);
+impl Out {
+    fn u8(&mut self, v: u8) {
+        self.0.push(v);
+    }
+    fn u32(&mut self, v: u32) {
+        self.0.extend_from_slice(&v.to_le_bytes());
+    }
+    fn u64(&mut self, v: u64) {
+        self.0.extend_from_slice(&v.to_le_bytes());
+    }
+    fn i128(&mut self, v: i128) {
+        self.0.extend_from_slice(&v.to_le_bytes());
+    }
+    fn bytes(&mut self, b: &[u8]) {
+        self.u64(b.len() as u64);
+        self.0.extend_from_slice(b);
+    }
+    fn invoices(&mut self, v: &[Invoice]) {
+        self.u64(v.len() as u64);
+        self.0.reserve(v.len() * 28);
+        for inv in v {
+            self.0.extend_from_slice(&inv.amount.0.to_le_bytes());
+            self.0.extend_from_slice(&inv.invoice_hash.to_le_bytes());
+            self.0.extend_from_slice(&inv.supplier.to_le_bytes());
+            self.0.extend_from_slice(&inv.date.to_le_bytes());
+            self.0.extend_from_slice(&inv.line().to_le_bytes());
+        }
+    }
+}
+
+/// Little-endian reader; every read checks the length (None past the end).
+struct In<'a>(&'a [u8]);
+impl<'a> In<'a> {
+    fn take(&mut self, n: usize) -> Option<&'a [u8]> {
+        if self.0.len() < n {
+            return None;
+        }
+        let (a, b) = self.0.split_at(n);
+        self.0 = b;
+        Some(a)
+    }
+    fn u8(&mut self) -> Option<u8> {
+        Some(self.take(1)?[0])
+    }
+    fn u32(&mut self) -> Option<u32> {
+        Some(u32::from_le_bytes(self.take(4)?.try_into().ok()?))
+    }
+    fn u64(&mut self) -> Option<u64> {
+        Some(u64::from_le_bytes(self.take(8)?.try_into().ok()?))
+    }
+    fn i128(&mut self) -> Option<i128> {
+        Some(i128::from_le_bytes(self.take(16)?.try_into().ok()?))
+    }
+    fn len(&mut self, each: usize) -> Option<usize> {
+        let n = usize::try_from(self.u64()?).ok()?;
+        // a count cannot claim more items than the bytes left hold
+        (n.checked_mul(each)? <= self.0.len()).then_some(n)
+    }
+    fn bytes(&mut self) -> Option<&'a [u8]> {
+        let n = self.len(1)?;
+        self.take(n)
+    }
+    fn text(&mut self) -> Option<String> {
+        String::from_utf8(self.bytes()?.to_vec()).ok()
+    }
+    fn invoices(&mut self) -> Option<Vec<Invoice>> {
+        let n = self.len(28)?;
+        let raw = self.take(n * 28)?;
+        Some(
+            raw.chunks_exact(28)
+                .map(|c| {
+                    let f = |a: usize, b: usize| &c[a..b];
+                    Invoice::new(
+                        Amount(i64::from_le_bytes(f(0, 8).try_into().unwrap())),
+                        u64::from_le_bytes(f(8, 16).try_into().unwrap()),
+                        u32::from_le_bytes(f(16, 20).try_into().unwrap()),
+                        i32::from_le_bytes(f(20, 24).try_into().unwrap()),
+                        u32::from_le_bytes(f(24, 28).try_into().unwrap()) as u64,
+                    )
+                })
+                .collect(),
+        )
+    }
+}
+
+impl Part {
+    /// The part as bytes, to hand to another Worker ([`Part::from_bytes`]).
+    pub fn to_bytes(&self) -> Vec<u8> {
+        let mut o = Out(PART_MAGIC.to_vec());
+        let p = match &self.0 {
+            PartKind::Empty => {
+                o.u8(0);
+                return o.0;
+            }
+            PartKind::Unfit => {
+                o.u8(2);
+                return o.0;
+            }
+            PartKind::Read(p) => p,
+        };
+        o.u8(1);
+        o.u64(p.fed);
+        o.u8(order_code(p.start_order));
+        o.u8(order_code(p.order));
+        o.u8(match p.conv {
+            None => 0,
+            Some(DecimalConvention::Point) => 1,
+            Some(DecimalConvention::Comma) => 2,
+        });
+        o.u64(p.deferred as u64);
+        o.u8(p.sum_rows as u8);
+        o.u64(p.recoded_names);
+        o.u8(p.saw_iso as u8);
+        o.u64(p.bad_dates);
+        o.i128(p.run_sum);
+        o.u64(p.run_rows);
+        o.u8(p.reset as u8);
+        o.i128(p.grand_sum);
+        o.u64(p.grand_rows);
+        o.u64(p.line);
+        o.bytes(&p.open);
+        o.u64(p.ledger.suppliers.len() as u64);
+        for s in &p.ledger.suppliers {
+            o.bytes(s.name.as_bytes());
+            o.bytes(s.key.as_bytes());
+        }
+        o.invoices(&p.ledger.invoices);
+        o.invoices(&p.ledger.credit_notes);
+        let a = &p.ledger.accounting;
+        o.u64(a.read);
+        o.u64(a.analysed);
+        o.u64(a.excluded);
+        o.u64(a.exclusions.len() as u64);
+        for e in &a.exclusions {
+            o.u8(ExclusionReason::ALL.iter().position(|&r| r == e.reason).expect("a known reason") as u8);
+            o.u64(e.count);
+            o.u64(e.rows.len() as u64);
+            e.rows.iter().for_each(|&r| o.u64(r));
+        }
+        o.u64(p.date_alts.len() as u64);
+        for &(l, d) in &p.date_alts {
+            o.u32(l);
+            o.u32(d as u32);
+        }
+        o.u64(p.amb_date.len() as u64);
+        p.amb_date.iter().for_each(|t| o.bytes(t.as_bytes()));
+        o.0
+    }
+
+    /// A part from [`Part::to_bytes`]; None for bytes it did not make.
+    pub fn from_bytes(b: &[u8]) -> Option<Part> {
+        let mut i = In(b);
+        if i.take(4)? != PART_MAGIC {
+            return None;
+        }
+        let part = match i.u8()? {
+            0 => Part(PartKind::Empty),
+            2 => Part(PartKind::Unfit),
+            1 => Part(PartKind::Read(Box::new(read_data(&mut i)?))),
+            _ => return None,
+        };
+        i.0.is_empty().then_some(part)
+    }
+}
+
+fn read_data(i: &mut In) -> Option<PartData> {
+    let fed = i.u64()?;
+    let start_order = order_of(i.u8()?)?;
+    let order = order_of(i.u8()?)?;
+    let conv = match i.u8()? {
+        0 => None,
+        1 => Some(DecimalConvention::Point),
+        2 => Some(DecimalConvention::Comma),
+        _ => return None,
+    };
+    let deferred = usize::try_from(i.u64()?).ok()?;
+    let sum_rows = i.u8()? != 0;
+    let recoded_names = i.u64()?;
+    let saw_iso = i.u8()? != 0;
+    let bad_dates = i.u64()?;
+    let run_sum = i.i128()?;
+    let run_rows = i.u64()?;
+    let reset = i.u8()? != 0;
+    let grand_sum = i.i128()?;
+    let grand_rows = i.u64()?;
+    let line = i.u64()?;
+    let open = i.bytes()?.to_vec();
+    let mut ledger = Ledger::default();
+    for _ in 0..i.len(16)? {
+        let name = i.text()?;
+        let key = i.text()?;
+        ledger.suppliers.push(Supplier { name, key });
+    }
+    ledger.invoices = i.invoices()?;
+    ledger.credit_notes = i.invoices()?;
+    if ledger.invoices.iter().chain(&ledger.credit_notes).any(|inv| inv.supplier as usize >= ledger.suppliers.len()) {
+        return None;
+    }
+    let a = &mut ledger.accounting;
+    a.read = i.u64()?;
+    a.analysed = i.u64()?;
+    a.excluded = i.u64()?;
+    for _ in 0..i.len(17)? {
+        let reason = *ExclusionReason::ALL.get(i.u8()? as usize)?;
+        let count = i.u64()?;
+        let rows = (0..i.len(8)?).map(|_| i.u64()).collect::<Option<Vec<u64>>>()?;
+        a.exclusions.push(crate::ledger::Exclusion { reason, description: reason.describe(), count, rows });
+    }
+    let date_alts = (0..i.len(8)?).map(|_| Some((i.u32()?, i.u32()? as i32))).collect::<Option<Vec<_>>>()?;
+    let amb_date = (0..i.len(8)?).map(|_| i.text()).collect::<Option<Vec<_>>>()?;
+    Some(PartData {
+        fed,
+        start_order,
+        order,
+        conv,
+        deferred,
+        sum_rows,
+        recoded_names,
+        ledger,
+        date_alts,
+        amb_date,
+        saw_iso,
+        bad_dates,
+        run_sum,
+        run_rows,
+        reset,
+        grand_sum,
+        grand_rows,
+        line,
+        open,
+    })
 }
