@@ -40,16 +40,10 @@
   const chartsReady = wasm_bindgen({ module_or_path: wasmBytes }).then(() => { $('version').textContent = wasm_bindgen.version(); });
   const workerSrc = $('dd-glue').textContent + '\n' + $('dd-worker').textContent;
   const worker = new Worker(URL.createObjectURL(new Blob([workerSrc], { type: 'text/javascript' })));
-  // src: for its helper Worker. Tests only: `?test-helper-fails=tables|powers|parts` stops the
-  // helper in that phase of a screen's calibration or of reading the file in segments, and
-  // `?test-segment=BYTES` reads files in segments of that size (at least 64 KiB) instead of
-  // 8 MiB, and `?test-reading=helper` leaves every segment after the first to the helper, to
-  // check that the numbers stay the same.
-  const query = new URLSearchParams(location.search);
-  const helperFails = query.get('test-helper-fails');
-  const segment = Number(query.get('test-segment')) || undefined;
-  const reading = query.get('test-reading');
-  worker.postMessage({ cmd: 'init', wasm: wasmBytes.slice().buffer, src: workerSrc, helperFails, segment, reading });
+  // src: for its helper Worker. `?test-helper-fails=tables|powers` (tests only): the helper is
+  // stopped in that phase of a screen's calibration, to check that the numbers stay the same.
+  const helperFails = new URLSearchParams(location.search).get('test-helper-fails');
+  worker.postMessage({ cmd: 'init', wasm: wasmBytes.slice().buffer, src: workerSrc, helperFails });
   let nextId = 1;
   const pending = new Map();
   worker.onmessage = (ev) => {
@@ -177,7 +171,6 @@
       state.report = res.screen;
       state.calibrationWorkers = res.workers; // Workers that simulated the null tables (2, or 1 without a helper)
       state.calibrationPowerWorkers = res.powerWorkers; // ... and did the power work per supplier
-      state.reading = res.reading; // how a file of two segments or more was read with the helper (null: in one pass)
       state.selected = res.screen.suppliers.length ? res.screen.suppliers[0].id : null;
       renderAccounting();
       renderSupplierTable();

@@ -2,10 +2,6 @@
 // `wasm_bindgen` (the no-modules glue) is prepended to this text by the page.
 'use strict';
 const CHUNK = 1 << 20; // 1 MiB slices: memory stays bounded whatever the file size.
-// Files of two segments or more are read in segments with the helper Worker (see readSplit).
-const SEGMENT = 8 << 20;
-let segmentSize = SEGMENT;
-let partsByHelperOnly = false; // tests only: after the first segment, the helper reads every part
 let session = null;
 let cancelled = false;
 let ready = null;
@@ -86,109 +82,6 @@ async function* slicesInTurn(blob) {
   }
 }
 
-// Push the blob's bytes from `from` on (1 MiB at a time) to `push` until it returns false.
-// True when the file ended first. By File.slice reads: byte streams of one blob read by both
-// Workers at once stalled in Chromium (a read that never resolved, in about one open in
-// four, 2026-12-04).
-async function pushFrom(blob, from, push) {
-  for await (const { buf } of sliceReads(blob.slice(from))) if (!push(buf)) return false;
-  return true;
-}
-
-// The file read in segments with the helper Worker (core intake::split): the first segment
-// here; then each Worker takes the next segment left. This one feeds it straight to the intake
-// when every segment before it is in, else reads it into a part; the helper reads its segments
-// into parts from the file's head and this intake's part settings and posts them as bytes. The
-// parts are joined in file order. A part that cannot be joined (a cut inside a quoted cell,
-// say) sends the rest of the file through here in turn; segments the helper held when it
-// failed are read here. The same ledger as reading in turn. `progress(bytes)` after each MiB.
-// Returns how the read went: {segments, direct, ownParts, helperParts, inTurnFrom}.
-async function readSplit(s, blob, options, h, gone, progress) {
-  const segment = segmentSize;
-  const segments = Math.ceil(blob.size / segment);
-  let joined = 0; // segments before it are in the intake
-  const how = { segments, direct: 1, ownParts: 0, helperParts: 0, inTurnFrom: null };
-  const feedSegment = (k, rest) => {
-    s.beginCut(segment, k, rest);
-    let at = k * segment;
-    return pushFrom(blob, at, (b) => { at += b.length; progress(Math.min(at, blob.size)); return s.feedCut(b) && !gone(); });
-  };
-  await feedSegment(0, false);
-  if (gone()) return how;
-  const settings = s.partSettings();
-  if (!settings || segments < 2) { await feedSegment(1, true); how.inTurnFrom = 1; return how; }
-  joined = 1;
-  let next = 1;
-  let stopped = false;
-  let helperUp = true;
-  const holder = new Map(); // segment -> 'helper' | 'part' (read into a part here)
-  const theirs = new Map(); // segment -> the helper's part as bytes
-  let wake = null;
-  const poke = () => { const w = wake; wake = null; if (w) w(); };
-  const job = helperParts(h, { blob, options: options || {}, settings, segment }, (m) => {
-    if (helperFailsIn === 'parts' && helper === h && theirs.size) { stopHelper(); return; } // tests only
-    if (m.share === 'want') {
-      let k = -1;
-      if (!stopped && !gone() && next < segments) { k = next++; holder.set(k, 'helper'); }
-      h.worker.postMessage({ cmd: 'partGo', job: job.job, k });
-    } else if (m.share === 'part') {
-      if (!stopped) theirs.set(m.k, m.bytes);
-      poke();
-    }
-  });
-  if (job) job.done.then((r) => { if (!r) helperUp = false; poke(); });
-  else helperUp = false;
-  let inTurnFrom = -1;
-  while (joined < segments && !gone()) {
-    // join what is ready, in order
-    for (;;) {
-      const who = holder.get(joined);
-      let ok;
-      if (who === 'part') { ok = s.joinOwn(joined); how.ownParts += ok; }
-      else if (who === 'helper' && theirs.has(joined)) { ok = s.joinBytes(theirs.get(joined)); theirs.delete(joined); how.helperParts += ok; }
-      else break;
-      if (!ok) { inTurnFrom = joined; break; }
-      joined++;
-      progress(Math.min(joined * segment, blob.size));
-    }
-    if (inTurnFrom >= 0 || joined >= segments) break;
-    let k = -1;
-    if (holder.get(joined) === 'helper' && !helperUp) k = joined; // the helper failed holding it
-    else if (next < segments && (!partsByHelperOnly || !helperUp)) k = next++;
-    if (k === joined) {
-      holder.delete(k);
-      await feedSegment(k, false);
-      joined++;
-      how.direct++;
-    } else if (k > joined) {
-      holder.set(k, 'part');
-      s.beginPart(segment, k);
-      const ended = await pushFrom(blob, k * segment, (b) => s.feedPart(b) && !gone());
-      s.endPart(k, ended);
-    } else {
-      // everything is taken: wait for the helper's part (or its end, or Cancel)
-      await untilCancel(new Promise((r) => { wake = r; if (theirs.has(joined) || !helperUp) poke(); }));
-    }
-  }
-  stopped = true;
-  theirs.clear();
-  s.dropParts();
-  if (inTurnFrom >= 0 && !gone()) { await feedSegment(inTurnFrom, true); how.inTurnFrom = inTurnFrom; }
-  return how;
-}
-
-// The helper's side of readSplit: {job, done} (done: its last answer, null if it failed), or
-// null. It asks for a segment (`{share: 'want'}`, answered by `partGo` with k, -1 to stop) and
-// posts each part (`{share: 'part', k, bytes}`).
-function helperParts(h, msg, onShare) {
-  if (!(h && h.ready && helper === h)) return null;
-  const job = ++jobIds;
-  const done = new Promise((resolve) => { h.jobs.set(job, resolve); });
-  h.shares.set(job, onShare);
-  h.worker.postMessage(Object.assign({ cmd: 'partsRead', job }, msg));
-  return { job, done };
-}
-
 async function openLedger(id, blob, name, options, settings) {
   cancelled = false;
   // this open's own session: a later open replaces the global one, and then this one stops
@@ -209,23 +102,13 @@ async function openLedger(id, blob, name, options, settings) {
   const hashLater = helperWanted && helper && helper.ready;
   if (hashLater) s.hashElsewhere();
   let shown = 0;
-  // progress at most every 50 ms: the page redraws its bar on each, on the same two cores
-  const progress = (at) => {
-    done = Math.max(done, at);
+  for await (const { buf, end } of slices(blob)) {
+    if (cancelled || session !== s) { drop(); return; }
+    s.feed(buf);
+    done = end;
+    // progress at most every 50 ms: the page redraws its bar on each, on the same two cores
     const now = performance.now();
     if (now - shown >= 50) { shown = now; post({ progress: true, id, done, total, rows: s.rowsSoFar() }); }
-  };
-  const gone = () => cancelled || session !== s;
-  let reading = null; // how a file read in segments went (readSplit)
-  if (hashLater && helper && helper.ready && total >= 2 * segmentSize) {
-    reading = await readSplit(s, blob, options, helper, gone, progress);
-    if (gone()) { drop(); return; }
-  } else {
-    for await (const { buf, end } of slices(blob)) {
-      if (gone()) { drop(); return; }
-      s.feed(buf);
-      progress(end);
-    }
   }
   const intake = s.finish();
   const intakeMs = performance.now() - t0;
@@ -240,7 +123,7 @@ async function openLedger(id, blob, name, options, settings) {
   if (!res) { drop(); return; }
   res.timing.intakeMs = intakeMs;
   const ms = performance.now() - t0;
-  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, powerWorkers: res.powerWorkers, timing: res.timing, reading, ms, sha256: hashLater ? null : s.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
+  post({ id, ok: true, value: { name, size: total, intake, screen: res.screen, workers: res.workers, powerWorkers: res.powerWorkers, timing: res.timing, ms, sha256: hashLater ? null : s.fingerprint(), wasmMemoryBytes: wasm_bindgen.wasmMemoryBytes() } });
   if (hashLater) fingerprintLater(id, blob);
 }
 
@@ -276,7 +159,6 @@ let helperFailsIn = null; // tests only: 'tables' or 'powers' (see app.js)
 const tableStops = new Map();
 const powerStops = new Map();
 const workerTablesIn = new Map();
-const partAssigned = new Map(); // per partsRead job: the resolver of its next segment
 let wasmModule = null;
 let helper = null; // { worker, ready: boolean, started: Promise<boolean>, jobs: Map(id -> resolver) }
 let jobIds = 0;
@@ -621,25 +503,6 @@ const handlers = {
     powerStops.delete(job);
     self.postMessage({ job, ok: true, result: { done: i }, ms: performance.now() - t0 });
   },
-  // Another Worker's file read in segments (see readSplit): ask for a segment, read it into a
-  // part from the file's head, the options and that Worker's part settings, post the part as
-  // bytes, ask again; until told k = -1.
-  async partsRead({ job, blob, options, settings, segment }) {
-    const head = new Uint8Array(await blob.slice(0, 65536).arrayBuffer());
-    let read = 0;
-    for (;;) {
-      const k = await new Promise((r) => { partAssigned.set(job, r); self.postMessage({ job, share: 'want' }); });
-      if (k < 0) break;
-      const pj = new wasm_bindgen.PartJob(head, options, settings, segment, k);
-      const ended = await pushFrom(blob, k * segment, (b) => pj.feed(b));
-      const bytes = pj.finish(ended);
-      pj.free();
-      self.postMessage({ job, share: 'part', k, bytes }, [bytes.buffer]);
-      read++;
-    }
-    self.postMessage({ job, ok: true, result: { read } });
-  },
-  async partGo({ job, k }) { const r = partAssigned.get(job); partAssigned.delete(job); if (r) r(k); },
   async tablesStop({ job, at }) { if (tableStops.has(job)) tableStops.set(job, Math.min(tableStops.get(job), at)); },
   async powersStop({ job, at }) { if (powerStops.has(job)) powerStops.set(job, Math.min(powerStops.get(job), at)); },
   async workerTables({ job, ns, tables, sims, seed }) {
@@ -693,8 +556,6 @@ self.onmessage = async (ev) => {
     // opened from a Worker of a file: page, whose origin is opaque).
     if (m.src) helperUrl = URL.createObjectURL(new Blob([m.src], { type: 'text/javascript' }));
     helperFailsIn = m.helperFails || null;
-    if (m.segment) segmentSize = Math.max(65536, m.segment);
-    partsByHelperOnly = m.reading === 'helper';
     ready = WebAssembly.compile(m.wasm).then(async (mod) => {
       await wasm_bindgen({ module_or_path: mod });
       wasmModule = mod;

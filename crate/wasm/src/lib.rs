@@ -5,7 +5,7 @@
 mod bench;
 mod chart;
 
-use digitdrift_core::intake::{DateOrder, DecimalConvention, Intake, IntakeOptions, IntakeResult, Part, PartReader, PartSettings, SegmentCut};
+use digitdrift_core::intake::{DateOrder, DecimalConvention, Intake, IntakeOptions, IntakeResult};
 use digitdrift_core::battery::{Indexed, Members};
 use digitdrift_core::calibrate::power::PowerResult;
 use digitdrift_core::calibrate::{CalibrationOptions, Calibrator, Categorical, NullTable, SupplierInput};
@@ -93,11 +93,6 @@ pub struct Session {
     tables: (u64, u32, Vec<NullTable>),
     /// Keep tables between screens (the benchmark turns it off to time cold screens).
     keep_tables: bool,
-    /// Reading in segments (see `beginCut`): the segment being fed to the intake, the one being
-    /// read into a part here, and the parts read here waiting for their turn to be joined.
-    cut: Option<SegmentCut>,
-    part: Option<PartReader>,
-    parts: std::collections::HashMap<u32, Part>,
 }
 
 /// The batteries of a screen and its calibrator, while null tables are simulated ahead (part
@@ -336,52 +331,12 @@ pub fn power_share(options: JsValue, ns: &[f64], flat: &[f64], inputs: &[f64]) -
     power_chunk(options, inputs)
 }
 
-/// The helper Worker's reading of one segment of another Worker's file into a part (core
-/// `intake::PartReader`), handed back as bytes for `Session.joinBytes`.
-#[wasm_bindgen]
-pub struct PartJob(Option<PartReader>);
-
-#[wasm_bindgen]
-impl PartJob {
-    /// From the file's first 64 KiB (`head`), the intake options and the other Worker's
-    /// `partSettings`: segment k of `segment` bytes. Push the file's bytes from k · segment.
-    #[wasm_bindgen(constructor)]
-    pub fn new(head: &[u8], options: JsValue, settings: JsValue, segment: f64, k: u32) -> Result<PartJob, JsValue> {
-        let o = intake_options(options)?;
-        let v: serde_json::Value = serde_wasm_bindgen::from_value(settings).map_err(err)?;
-        let decimal = match v.get("decimal").and_then(|d| d.as_str()) {
-            Some("point") => DecimalConvention::Point,
-            Some("comma") => DecimalConvention::Comma,
-            _ => return Err(err("part settings: no decimal convention")),
-        };
-        let date_order = match v.get("dateOrder").and_then(|d| d.as_str()) {
-            None => None,
-            Some("dmy") => Some(DateOrder::Dmy),
-            Some("mdy") => Some(DateOrder::Mdy),
-            Some("ymd") => Some(DateOrder::Ymd),
-            Some(x) => return Err(err(format!("part settings: date order '{x}'"))),
-        };
-        let r = PartReader::from_head(head, &o, PartSettings { decimal, date_order }, segment.max(1.0) as u64, k as usize).map_err(err)?;
-        Ok(PartJob(Some(r)))
-    }
-
-    /// The next bytes of the file; false once the segment has all it needs.
-    pub fn feed(&mut self, chunk: &[u8]) -> bool {
-        self.0.as_mut().is_some_and(|r| r.feed(chunk))
-    }
-
-    /// The part as bytes (`ended`: the file ended before the segment did).
-    pub fn finish(&mut self, ended: bool) -> Vec<u8> {
-        self.0.take().map(|r| r.finish(ended).to_bytes()).unwrap_or_default()
-    }
-}
-
 #[wasm_bindgen]
 impl Session {
     #[wasm_bindgen(constructor)]
     pub fn new(options: JsValue) -> Result<Session, JsValue> {
         let o = intake_options(options)?;
-        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), hash_here: true, fingerprint_of: None, trial: None, trial_last: None, pending: None, tables: (0, 0, Vec::new()), keep_tables: true, cut: None, part: None, parts: Default::default() })
+        Ok(Session { min_amount: o.min_amount, intake: Some(Intake::new(o)), result: None, report: None, fingerprint: Default::default(), hash_here: true, fingerprint_of: None, trial: None, trial_last: None, pending: None, tables: (0, 0, Vec::new()), keep_tables: true })
     }
 
     /// The file's size in bytes (`File.size`), before the first `feed`: the invoice store is
@@ -399,90 +354,6 @@ impl Session {
             self.fingerprint.update(chunk);
         }
         self.intake.as_mut().ok_or_else(|| err("intake already finished"))?.feed(chunk).map_err(err)
-    }
-
-    /// Read the file in segments of `segment` bytes with the helper Worker (core
-    /// `intake::split`): feed segment k (or, `rest`, everything from its start) to the intake
-    /// through its cut. Push the file's bytes from offset k · segment with `feedCut` until it
-    /// returns false (or the file ends).
-    #[wasm_bindgen(js_name = beginCut)]
-    pub fn begin_cut(&mut self, segment: f64, k: u32, rest: bool) {
-        let seg = segment.max(1.0) as u64;
-        self.cut = Some(if rest { SegmentCut::rest(seg, k as usize) } else { SegmentCut::new(seg, k as usize) });
-    }
-
-    /// The next bytes for the segment begun with `beginCut`; false once it has all it needs.
-    #[wasm_bindgen(js_name = feedCut)]
-    pub fn feed_cut(&mut self, chunk: &[u8]) -> Result<bool, JsValue> {
-        let cut = self.cut.as_mut().ok_or_else(|| err("no segment begun"))?;
-        let c = cut.cut(chunk);
-        let more = !cut.done();
-        if self.hash_here {
-            return Err(err("a file read in segments is hashed elsewhere"));
-        }
-        self.intake.as_mut().ok_or_else(|| err("intake already finished"))?.feed(c).map_err(err)?;
-        Ok(more)
-    }
-
-    /// Once the first segment is in: what the helper needs besides the file's head and the
-    /// options to read parts (`PartJob`), as `{decimal, dateOrder}`; null when the rest must be
-    /// read in turn (or the fingerprint is computed here, from the bytes in order).
-    #[wasm_bindgen(js_name = partSettings)]
-    pub fn part_settings(&self) -> Result<JsValue, JsValue> {
-        match self.intake.as_ref().and_then(Intake::part_settings).filter(|_| !self.hash_here) {
-            Some(p) => to_js(&serde_json::json!({"decimal": p.decimal, "dateOrder": p.date_order})),
-            None => Ok(JsValue::NULL),
-        }
-    }
-
-    /// Read segment k into a part here (to be joined in its turn, `joinOwn`): push the file's
-    /// bytes from k · segment with `feedPart` until it returns false (or the file ends), then
-    /// `endPart`. False when parts cannot be read (see `partSettings`).
-    #[wasm_bindgen(js_name = beginPart)]
-    pub fn begin_part(&mut self, segment: f64, k: u32) -> bool {
-        self.part = self.intake.as_ref().and_then(|i| i.part_reader(segment.max(1.0) as u64, k as usize));
-        self.part.is_some()
-    }
-
-    #[wasm_bindgen(js_name = feedPart)]
-    pub fn feed_part(&mut self, chunk: &[u8]) -> bool {
-        self.part.as_mut().is_some_and(|p| p.feed(chunk))
-    }
-
-    /// The part begun with `beginPart` is read (`ended`: the file ended before it did).
-    #[wasm_bindgen(js_name = endPart)]
-    pub fn end_part(&mut self, k: u32, ended: bool) {
-        if let Some(p) = self.part.take() {
-            self.parts.insert(k, p.finish(ended));
-        }
-    }
-
-    /// Join segment k's part read here; false when it cannot be joined (or is missing): then
-    /// read the rest in turn from its start (`beginCut(segment, k, true)`).
-    #[wasm_bindgen(js_name = joinOwn)]
-    pub fn join_own(&mut self, k: u32) -> bool {
-        match (self.parts.remove(&k), self.intake.as_mut()) {
-            (Some(p), Some(i)) => i.join_part(p),
-            _ => false,
-        }
-    }
-
-    /// Join the next segment's part read by the helper (`PartJob` bytes); false as for
-    /// `joinOwn`.
-    #[wasm_bindgen(js_name = joinBytes)]
-    pub fn join_bytes(&mut self, bytes: &[u8]) -> bool {
-        match (Part::from_bytes(bytes), self.intake.as_mut()) {
-            (Some(p), Some(i)) => i.join_part(p),
-            _ => false,
-        }
-    }
-
-    /// Parts read here and not joined yet are dropped (a read abandoned or read in turn).
-    #[wasm_bindgen(js_name = dropParts)]
-    pub fn drop_parts(&mut self) {
-        self.parts.clear();
-        self.part = None;
-        self.cut = None;
     }
 
     #[wasm_bindgen(js_name = rowsSoFar)]
