@@ -84,22 +84,6 @@ pub enum ExclusionReason {
 }
 
 impl ExclusionReason {
-    /// Every reason, in order.
-    pub const ALL: [ExclusionReason; 12] = [
-        ExclusionReason::BlankRow,
-        ExclusionReason::BlankAmount,
-        ExclusionReason::UnparseableAmount,
-        ExclusionReason::ZeroAmount,
-        ExclusionReason::CreditNote,
-        ExclusionReason::BelowMinimum,
-        ExclusionReason::MissingSupplier,
-        ExclusionReason::RaggedRow,
-        ExclusionReason::TotalsLine,
-        ExclusionReason::RepeatedHeader,
-        ExclusionReason::UnparseableDate,
-        ExclusionReason::TooManyCells,
-    ];
-
     pub fn describe(self) -> &'static str {
         match self {
             ExclusionReason::BlankRow => "blank row",

@@ -7,7 +7,7 @@
 //! segment sizes, and a generated ledger with awkward rows on both sides of every cut is read
 //! with and without the features that must send the rest of the file through in turn.
 
-use digitdrift_core::intake::{read_split, read_split_parts, Intake, IntakeOptions, IntakeResult, Part, PartReader, SegmentCut, SplitStats};
+use digitdrift_core::intake::{read_split, read_split_parts, Intake, IntakeOptions, IntakeResult, SplitStats};
 use std::path::Path;
 
 fn one_pass(bytes: &[u8], opts: &IntakeOptions) -> Result<IntakeResult, String> {
@@ -194,118 +194,4 @@ fn file_on_disk_reads_as_in_memory() {
     let (r, st) = r.unwrap();
     assert!(st.segments > 4 && st.in_turn_from.is_none(), "{st:?}");
     assert_eq!(show(&Ok(r)), show(&one_pass(&bytes, &IntakeOptions::default())));
-}
-
-/// The page's way: the first segment fed to the intake through its cut; every later segment
-/// read by a reader that has only the file's head, the options and the intake's part settings
-/// (as another Worker does), pushed in odd-sized chunks, handed over as bytes and joined in
-/// order; the rest read in turn from the first part that cannot be joined. Returns the result
-/// and the segment read in turn from, if any.
-fn page_way(bytes: &[u8], opts: &IntakeOptions, segment: u64) -> (Result<IntakeResult, String>, Option<usize>) {
-    let segments = (bytes.len() as u64).div_ceil(segment) as usize;
-    let mut it = Intake::new(opts.clone());
-    it.set_size_hint(bytes.len() as u64);
-    let push = |it: &mut Intake, mut cut: SegmentCut| -> Result<(), String> {
-        while !cut.done() && (cut.offset() as usize) < bytes.len() {
-            let at = cut.offset() as usize;
-            let c = cut.cut(&bytes[at..(at + 7919).min(bytes.len())]);
-            it.feed(c).map_err(|e| e.to_string())?;
-        }
-        Ok(())
-    };
-    let run = |it: &mut Intake| -> Result<Option<usize>, String> {
-        push(it, SegmentCut::new(segment, 0))?;
-        let Some(settings) = it.part_settings() else {
-            push(it, SegmentCut::rest(segment, 1))?;
-            return Ok(None);
-        };
-        let head = &bytes[..bytes.len().min(64 << 10)];
-        for k in 1..segments {
-            let mut r = PartReader::from_head(head, opts, settings, segment, k).map_err(|e| e.to_string())?;
-            let mut ended = true;
-            while (r.offset() as usize) < bytes.len() {
-                let at = r.offset() as usize;
-                if !r.feed(&bytes[at..(at + 4099).min(bytes.len())]) {
-                    ended = false;
-                    break;
-                }
-            }
-            let b = r.finish(ended).to_bytes();
-            let part = Part::from_bytes(&b).expect("bytes it made");
-            if !it.join_part(part) {
-                push(it, SegmentCut::rest(segment, k))?;
-                return Ok(Some(k));
-            }
-        }
-        Ok(None)
-    };
-    match run(&mut it) {
-        Ok(in_turn) => (it.finish().map_err(|e| e.to_string()), in_turn),
-        Err(e) => (Err(e), None),
-    }
-}
-
-/// Parts read from the head alone and handed over as bytes join to what one pass gives, on
-/// the generated ledgers and every catalogue case (repeated), at several segment sizes.
-#[test]
-fn parts_handed_over_as_bytes_equal_one_pass() {
-    let opts = IntakeOptions::default();
-    let mut cases: Vec<(String, Vec<u8>)> = vec![
-        ("plain".into(), ledger(30_000, 31, false, false, false)),
-        ("crlf".into(), ledger(30_000, 32, false, false, true)),
-        ("quoted line breaks".into(), ledger(30_000, 33, true, false, false)),
-        ("no-supplier rows".into(), ledger(30_000, 34, false, true, false)),
-    ];
-    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../../tests/intake-catalogue");
-    let mut files: Vec<_> = std::fs::read_dir(&dir).unwrap().filter_map(|e| e.ok().map(|e| e.path())).filter(|p| p.extension().is_some_and(|x| x != "expect" && x != "py" && x != "md")).collect();
-    files.sort();
-    for f in files {
-        let one = std::fs::read(&f).unwrap();
-        if one.is_empty() {
-            continue;
-        }
-        let mut big = Vec::new();
-        while big.len() < 300_000 {
-            big.extend_from_slice(&one);
-        }
-        cases.push((f.display().to_string(), big));
-    }
-    let mut joined_all = 0;
-    for (what, bytes) in &cases {
-        let want = show(&one_pass(bytes, &opts));
-        for segment in [64 << 10, 100_003] {
-            let (got, in_turn) = page_way(bytes, &opts, segment);
-            assert_eq!(show(&got), want, "{what}, segment {segment}");
-            joined_all += in_turn.is_none() as u32;
-        }
-    }
-    assert!(joined_all > 10, "{joined_all}");
-    // a cut on a quoted line break: that part is not joined
-    let awkward = &cases[2].1;
-    let inner = awkward.windows(9).enumerate().skip(70_000).find(|(_, w)| &w[1..] == b"(branch " && w[0] == b'\n').map(|(p, _)| p as u64).unwrap();
-    let (got, in_turn) = page_way(awkward, &opts, inner);
-    assert_eq!(show(&got), show(&one_pass(awkward, &opts)));
-    assert_eq!(in_turn, Some(1));
-}
-
-/// Bytes a part did not make (every cut-short copy of real ones, and a changed magic) are
-/// refused, not read.
-#[test]
-fn part_bytes_cut_short_are_refused() {
-    let bytes = ledger(3_000, 41, false, false, false);
-    let mut it = Intake::new(IntakeOptions::default());
-    it.feed(&bytes[..70_000]).unwrap();
-    let settings = it.part_settings().expect("settings");
-    let b = PartReader::from_head(&bytes[..65_536], &IntakeOptions::default(), settings, 65_536, 1).map(|mut r| {
-        r.feed(&bytes[65_536..]);
-        r.finish(true).to_bytes()
-    }).unwrap();
-    assert!(b.len() > 10_000);
-    assert!(Part::from_bytes(&b).is_some());
-    for n in (0..b.len()).step_by(97) {
-        assert!(Part::from_bytes(&b[..n]).is_none(), "{n}");
-    }
-    let mut bad = b.clone();
-    bad[0] = b'x';
-    assert!(Part::from_bytes(&bad).is_none());
 }

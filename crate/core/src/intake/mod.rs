@@ -30,7 +30,7 @@ mod split;
 
 pub use amount::{parse_amount, trim_cell, Hint};
 pub use date::{civil_from_days, days_from_civil, format_date, parse_date, DateCell};
-pub use split::{read_split, read_split_parts, ByteSource, Part, PartReader, PartSettings, ReadError, SegmentCut, SplitStats, SEGMENT};
+pub use split::{read_split, read_split_parts, ByteSource, ReadError, SplitStats, SEGMENT};
 
 use crate::amount::Amount;
 use crate::ledger::{fnv1a, supplier_key, ExclusionReason, Invoice, Ledger, Supplier, NO_DATE};

@@ -1,4 +1,5 @@
-//! One file read on two threads (natively; the page's Workers read in turn).
+//! One file read on two threads, natively. (The page reads in turn: in Chromium a second
+//! Worker reading the same File slowed the reading rather than sharing it; docs/BENCHMARKS.md.)
 //!
 //! The file is cut into segments of [`SEGMENT`] bytes, each moved on to the next line start
 //! (the byte after the first LF at or after its nominal start). The first segment goes through
@@ -14,7 +15,8 @@
 //! - the intake before it must end at a record boundary (no record left open: a cut inside a
 //!   quoted field is found here);
 //! - the decimal convention is known from the head (else the file is read in turn from the
-//!   start), and the day/month order is the same before, in and after the part as in the head;
+//!   start), and the day/month order is the same before and after the part as when the first
+//!   segment was in;
 //! - the part met no row without a supplier and with a non-zero amount (whether that row is a
 //!   total depends on the sums of the rows above), no supplier name that was not UTF-8 (the
 //!   warning counts each spelling once per file) and no error.
@@ -91,9 +93,8 @@ pub struct SplitStats {
     pub in_turn_from: Option<usize>,
 }
 
-/// A segment read on its own (see the module text), to be joined by [`Intake::join_part`]; on
-/// the page read by another Worker and handed over as bytes ([`Part::to_bytes`]).
-pub struct Part(PartKind);
+/// A segment read on its own (see the module text), to be joined by [`Intake::join_part`].
+struct Part(PartKind);
 
 enum PartKind {
     /// No line starts in it.
@@ -135,7 +136,7 @@ struct PartData {
 /// Cuts segment k out of the bytes pushed from its nominal start (k · segment) on: skips to
 /// the first line start at or after it (none for segment 0), passes on the bytes up to and
 /// including the first LF at or after the next segment's nominal start, then is done.
-pub struct SegmentCut {
+struct SegmentCut {
     /// File offset of the next byte pushed.
     at: u64,
     /// The segment's bytes have begun (a line start was found).
@@ -147,28 +148,28 @@ pub struct SegmentCut {
 
 impl SegmentCut {
     /// Segment k of `segment` bytes; the bytes pushed must start at `k * segment`.
-    pub fn new(segment: u64, k: usize) -> SegmentCut {
+    fn new(segment: u64, k: usize) -> SegmentCut {
         let from = k as u64 * segment;
         SegmentCut { at: from, begun: k == 0, end: from.saturating_add(segment), done: false }
     }
 
     /// Everything from segment k's start to the end of the file.
-    pub fn rest(segment: u64, k: usize) -> SegmentCut {
+    fn rest(segment: u64, k: usize) -> SegmentCut {
         SegmentCut { end: u64::MAX, ..SegmentCut::new(segment, k) }
     }
 
     /// The file offset the next pushed bytes must start at.
-    pub fn offset(&self) -> u64 {
+    fn offset(&self) -> u64 {
         self.at
     }
 
     /// The segment has ended (no more bytes belong to it).
-    pub fn done(&self) -> bool {
+    fn done(&self) -> bool {
         self.done
     }
 
     /// The part of `chunk` (the next bytes of the file) that belongs to the segment.
-    pub fn cut<'a>(&mut self, chunk: &'a [u8]) -> &'a [u8] {
+    fn cut<'a>(&mut self, chunk: &'a [u8]) -> &'a [u8] {
         if self.done {
             return &[];
         }
@@ -201,18 +202,10 @@ impl SegmentCut {
     }
 }
 
-/// What a part starts from besides the head: the conventions the intake had reached when the
-/// first segment was in (see [`Intake::part_settings`]).
-#[derive(Clone, Copy, Debug, PartialEq, Eq)]
-pub struct PartSettings {
-    pub decimal: DecimalConvention,
-    pub date_order: Option<DateOrder>,
-}
-
 /// Reads one segment into a [`Part`]: push the file's bytes from the segment's nominal start
 /// with [`PartReader::feed`] until it wants no more (or the file ends), then
 /// [`PartReader::finish`].
-pub struct PartReader {
+struct PartReader {
     run: Box<Run>,
     cut: SegmentCut,
     fed: u64,
@@ -221,29 +214,17 @@ pub struct PartReader {
 }
 
 impl PartReader {
-    /// A reader of segment k for another thread or Worker that has only the file's head (its
-    /// first 64 KiB, or all of it if shorter, exactly as the intake was fed them), the intake
-    /// options and the settings the intake reported.
-    pub fn from_head(head: &[u8], opts: &IntakeOptions, settings: PartSettings, segment: u64, k: usize) -> Result<PartReader, IntakeError> {
-        let head = &head[..head.len().min(SNIFF_LEN)];
-        let run = Run::start(head, false, opts, false)?;
-        let mut tpl = run.clone_part();
-        tpl.conv = Some(settings.decimal);
-        tpl.order = settings.date_order;
-        Ok(PartReader::of(&tpl, segment, k))
-    }
-
     fn of(tpl: &Run, segment: u64, k: usize) -> PartReader {
         PartReader { run: tpl.clone_part(), cut: SegmentCut::new(segment, k), fed: 0, start_order: tpl.order, failed: false }
     }
 
     /// The file offset the next pushed bytes must start at.
-    pub fn offset(&self) -> u64 {
+    fn offset(&self) -> u64 {
         self.cut.offset()
     }
 
     /// Push the next bytes of the file; false once the segment has all it needs.
-    pub fn feed(&mut self, chunk: &[u8]) -> bool {
+    fn feed(&mut self, chunk: &[u8]) -> bool {
         let c = self.cut.cut(chunk);
         if !c.is_empty() && !self.failed {
             self.fed += c.len() as u64;
@@ -254,7 +235,7 @@ impl PartReader {
 
     /// The part. `file_ended`: the file has no bytes after the last ones pushed (the segment
     /// then ends with it).
-    pub fn finish(mut self, file_ended: bool) -> Part {
+    fn finish(mut self, file_ended: bool) -> Part {
         if self.failed {
             return Part(PartKind::Unfit);
         }
@@ -492,24 +473,10 @@ impl Intake {
         }
     }
 
-    /// What another Worker needs besides the head and the options to read parts of this file
-    /// ([`PartReader::from_head`]); None when the file must be read in turn (see the module
-    /// text). Ask once the first segment is in.
-    pub fn part_settings(&self) -> Option<PartSettings> {
-        let t = self.template()?;
-        Some(PartSettings { decimal: t.conv?, date_order: t.order })
-    }
-
-    /// A reader of segment k into a part with this intake's settings (None as for
-    /// [`Intake::part_settings`]).
-    pub fn part_reader(&self, segment: u64, k: usize) -> Option<PartReader> {
-        self.template().map(|t| PartReader::of(&t, segment, k))
-    }
-
     /// Join the next segment's part: true when it is in (or was empty); false, with nothing
     /// changed, when it cannot be joined — then read the rest of the file in turn from that
     /// segment's start ([`SegmentCut::rest`]).
-    pub fn join_part(&mut self, part: Part) -> bool {
+    fn join_part(&mut self, part: Part) -> bool {
         let State::Run(run) = &mut self.state else { return false };
         match part.0 {
             PartKind::Empty => true,
@@ -640,262 +607,4 @@ impl Run {
         self.pos = 0;
         true
     }
-}
-
-// ---------------------------------------------------------------- parts as bytes
-
-const PART_MAGIC: &[u8; 4] = b"ddp1";
-
-fn order_code(o: Option<DateOrder>) -> u8 {
-    match o {
-        None => 0,
-        Some(DateOrder::Dmy) => 1,
-        Some(DateOrder::Mdy) => 2,
-        Some(DateOrder::Ymd) => 3,
-    }
-}
-
-fn order_of(c: u8) -> Option<Option<DateOrder>> {
-    Some(match c {
-        0 => None,
-        1 => Some(DateOrder::Dmy),
-        2 => Some(DateOrder::Mdy),
-        3 => Some(DateOrder::Ymd),
-        _ => return None,
-    })
-}
-
-/// Little-endian writer.
-struct Out(Vec<u8>);
-impl Out {
-    fn u8(&mut self, v: u8) {
-        self.0.push(v);
-    }
-    fn u32(&mut self, v: u32) {
-        self.0.extend_from_slice(&v.to_le_bytes());
-    }
-    fn u64(&mut self, v: u64) {
-        self.0.extend_from_slice(&v.to_le_bytes());
-    }
-    fn i128(&mut self, v: i128) {
-        self.0.extend_from_slice(&v.to_le_bytes());
-    }
-    fn bytes(&mut self, b: &[u8]) {
-        self.u64(b.len() as u64);
-        self.0.extend_from_slice(b);
-    }
-    fn invoices(&mut self, v: &[Invoice]) {
-        self.u64(v.len() as u64);
-        self.0.reserve(v.len() * 28);
-        for inv in v {
-            self.0.extend_from_slice(&inv.amount.0.to_le_bytes());
-            self.0.extend_from_slice(&inv.invoice_hash.to_le_bytes());
-            self.0.extend_from_slice(&inv.supplier.to_le_bytes());
-            self.0.extend_from_slice(&inv.date.to_le_bytes());
-            self.0.extend_from_slice(&inv.line().to_le_bytes());
-        }
-    }
-}
-
-/// Little-endian reader; every read checks the length (None past the end).
-struct In<'a>(&'a [u8]);
-impl<'a> In<'a> {
-    fn take(&mut self, n: usize) -> Option<&'a [u8]> {
-        if self.0.len() < n {
-            return None;
-        }
-        let (a, b) = self.0.split_at(n);
-        self.0 = b;
-        Some(a)
-    }
-    fn u8(&mut self) -> Option<u8> {
-        Some(self.take(1)?[0])
-    }
-    fn u32(&mut self) -> Option<u32> {
-        Some(u32::from_le_bytes(self.take(4)?.try_into().ok()?))
-    }
-    fn u64(&mut self) -> Option<u64> {
-        Some(u64::from_le_bytes(self.take(8)?.try_into().ok()?))
-    }
-    fn i128(&mut self) -> Option<i128> {
-        Some(i128::from_le_bytes(self.take(16)?.try_into().ok()?))
-    }
-    fn len(&mut self, each: usize) -> Option<usize> {
-        let n = usize::try_from(self.u64()?).ok()?;
-        // a count cannot claim more items than the bytes left hold
-        (n.checked_mul(each)? <= self.0.len()).then_some(n)
-    }
-    fn bytes(&mut self) -> Option<&'a [u8]> {
-        let n = self.len(1)?;
-        self.take(n)
-    }
-    fn text(&mut self) -> Option<String> {
-        String::from_utf8(self.bytes()?.to_vec()).ok()
-    }
-    fn invoices(&mut self) -> Option<Vec<Invoice>> {
-        let n = self.len(28)?;
-        let raw = self.take(n * 28)?;
-        Some(
-            raw.chunks_exact(28)
-                .map(|c| {
-                    let f = |a: usize, b: usize| &c[a..b];
-                    Invoice::new(
-                        Amount(i64::from_le_bytes(f(0, 8).try_into().unwrap())),
-                        u64::from_le_bytes(f(8, 16).try_into().unwrap()),
-                        u32::from_le_bytes(f(16, 20).try_into().unwrap()),
-                        i32::from_le_bytes(f(20, 24).try_into().unwrap()),
-                        u32::from_le_bytes(f(24, 28).try_into().unwrap()) as u64,
-                    )
-                })
-                .collect(),
-        )
-    }
-}
-
-impl Part {
-    /// The part as bytes, to hand to another Worker ([`Part::from_bytes`]).
-    pub fn to_bytes(&self) -> Vec<u8> {
-        let mut o = Out(PART_MAGIC.to_vec());
-        let p = match &self.0 {
-            PartKind::Empty => {
-                o.u8(0);
-                return o.0;
-            }
-            PartKind::Unfit => {
-                o.u8(2);
-                return o.0;
-            }
-            PartKind::Read(p) => p,
-        };
-        o.u8(1);
-        o.u64(p.fed);
-        o.u8(order_code(p.start_order));
-        o.u8(order_code(p.order));
-        o.u8(match p.conv {
-            None => 0,
-            Some(DecimalConvention::Point) => 1,
-            Some(DecimalConvention::Comma) => 2,
-        });
-        o.u64(p.deferred as u64);
-        o.u8(p.sum_rows as u8);
-        o.u64(p.recoded_names);
-        o.u8(p.saw_iso as u8);
-        o.u64(p.bad_dates);
-        o.i128(p.run_sum);
-        o.u64(p.run_rows);
-        o.u8(p.reset as u8);
-        o.i128(p.grand_sum);
-        o.u64(p.grand_rows);
-        o.u64(p.line);
-        o.bytes(&p.open);
-        o.u64(p.ledger.suppliers.len() as u64);
-        for s in &p.ledger.suppliers {
-            o.bytes(s.name.as_bytes());
-            o.bytes(s.key.as_bytes());
-        }
-        o.invoices(&p.ledger.invoices);
-        o.invoices(&p.ledger.credit_notes);
-        let a = &p.ledger.accounting;
-        o.u64(a.read);
-        o.u64(a.analysed);
-        o.u64(a.excluded);
-        o.u64(a.exclusions.len() as u64);
-        for e in &a.exclusions {
-            o.u8(ExclusionReason::ALL.iter().position(|&r| r == e.reason).expect("a known reason") as u8);
-            o.u64(e.count);
-            o.u64(e.rows.len() as u64);
-            e.rows.iter().for_each(|&r| o.u64(r));
-        }
-        o.u64(p.date_alts.len() as u64);
-        for &(l, d) in &p.date_alts {
-            o.u32(l);
-            o.u32(d as u32);
-        }
-        o.u64(p.amb_date.len() as u64);
-        p.amb_date.iter().for_each(|t| o.bytes(t.as_bytes()));
-        o.0
-    }
-
-    /// A part from [`Part::to_bytes`]; None for bytes it did not make.
-    pub fn from_bytes(b: &[u8]) -> Option<Part> {
-        let mut i = In(b);
-        if i.take(4)? != PART_MAGIC {
-            return None;
-        }
-        let part = match i.u8()? {
-            0 => Part(PartKind::Empty),
-            2 => Part(PartKind::Unfit),
-            1 => Part(PartKind::Read(Box::new(read_data(&mut i)?))),
-            _ => return None,
-        };
-        i.0.is_empty().then_some(part)
-    }
-}
-
-fn read_data(i: &mut In) -> Option<PartData> {
-    let fed = i.u64()?;
-    let start_order = order_of(i.u8()?)?;
-    let order = order_of(i.u8()?)?;
-    let conv = match i.u8()? {
-        0 => None,
-        1 => Some(DecimalConvention::Point),
-        2 => Some(DecimalConvention::Comma),
-        _ => return None,
-    };
-    let deferred = usize::try_from(i.u64()?).ok()?;
-    let sum_rows = i.u8()? != 0;
-    let recoded_names = i.u64()?;
-    let saw_iso = i.u8()? != 0;
-    let bad_dates = i.u64()?;
-    let run_sum = i.i128()?;
-    let run_rows = i.u64()?;
-    let reset = i.u8()? != 0;
-    let grand_sum = i.i128()?;
-    let grand_rows = i.u64()?;
-    let line = i.u64()?;
-    let open = i.bytes()?.to_vec();
-    let mut ledger = Ledger::default();
-    for _ in 0..i.len(16)? {
-        let name = i.text()?;
-        let key = i.text()?;
-        ledger.suppliers.push(Supplier { name, key });
-    }
-    ledger.invoices = i.invoices()?;
-    ledger.credit_notes = i.invoices()?;
-    if ledger.invoices.iter().chain(&ledger.credit_notes).any(|inv| inv.supplier as usize >= ledger.suppliers.len()) {
-        return None;
-    }
-    let a = &mut ledger.accounting;
-    a.read = i.u64()?;
-    a.analysed = i.u64()?;
-    a.excluded = i.u64()?;
-    for _ in 0..i.len(17)? {
-        let reason = *ExclusionReason::ALL.get(i.u8()? as usize)?;
-        let count = i.u64()?;
-        let rows = (0..i.len(8)?).map(|_| i.u64()).collect::<Option<Vec<u64>>>()?;
-        a.exclusions.push(crate::ledger::Exclusion { reason, description: reason.describe(), count, rows });
-    }
-    let date_alts = (0..i.len(8)?).map(|_| Some((i.u32()?, i.u32()? as i32))).collect::<Option<Vec<_>>>()?;
-    let amb_date = (0..i.len(8)?).map(|_| i.text()).collect::<Option<Vec<_>>>()?;
-    Some(PartData {
-        fed,
-        start_order,
-        order,
-        conv,
-        deferred,
-        sum_rows,
-        recoded_names,
-        ledger,
-        date_alts,
-        amb_date,
-        saw_iso,
-        bad_dates,
-        run_sum,
-        run_rows,
-        reset,
-        grand_sum,
-        grand_rows,
-        line,
-        open,
-    })
 }
