@@ -110,7 +110,13 @@ pub fn population<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &Scr
 /// As [`population`], with the population's duplicate findings known already (see
 /// [`battery::run_with_totals`]).
 pub fn population_with<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &ScreenOptions, known: Option<Duplicates>) -> SupplierResult {
-    let (tests, t) = battery::run_with_totals(invs, &opts.battery, known);
+    population_in_windows(id, name, invs, opts, known, battery::WINDOW_PARTS)
+}
+
+/// As [`population_with`], its amounts sorted in windows of about 1/parts of the members
+/// ([`battery::run_in_windows`]; the same result).
+fn population_in_windows<M: Members + ?Sized>(id: u32, name: &str, invs: &M, opts: &ScreenOptions, known: Option<Duplicates>, parts: usize) -> SupplierResult {
+    let (tests, t) = battery::run_in_windows(invs, &opts.battery, known, parts);
     SupplierResult {
         id,
         name: name.to_string(),
@@ -301,9 +307,24 @@ pub fn screen_tables(cal: &Calibrator, inputs: &[SupplierInput], invoices: &[u64
 /// ([`quick_calibration_inputs`]; the calibration after the batteries finds them cached).
 /// Once its batteries are done, the first thread takes null tables ([`table_items`], from the
 /// costliest end) and then suppliers' power work too, with a copy of the calibrator (the
-/// batteries' memory is free by then). Every number is the same as on one thread (tables and
-/// power results are seeded by their own size and path).
-pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions, mut cal: Option<Calibrator>) -> ScreenReport {
+/// batteries' memory is free by then). The whole file's and the credit notes' batteries go to
+/// whichever thread is free first: the second, when it is done before the suppliers' batteries
+/// (large ledgers), sorts the whole file's amounts in narrower windows ([`WHOLE_BESIDE_PARTS`])
+/// and leaves its duplicate groups to be merged from the suppliers' afterwards. Every number is
+/// the same as on one thread (tables and power results are seeded by their own size and path).
+pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions, cal: Option<Calibrator>) -> ScreenReport {
+    screen_threads(ledger, info, min_amount, opts, cal, None)
+}
+
+/// [`screen_with`] with the whole file's battery given to the calibration thread (`beside`
+/// true: beside the suppliers' batteries) or to the battery thread (false), whichever is free
+/// first otherwise. For tests: the report is the same either way.
+#[doc(hidden)]
+pub fn screen_with_whole(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions, cal: Option<Calibrator>, beside: bool) -> ScreenReport {
+    screen_threads(ledger, info, min_amount, opts, cal, Some(beside))
+}
+
+fn screen_threads(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions, mut cal: Option<Calibrator>, beside: Option<bool>) -> ScreenReport {
     if cfg!(target_arch = "wasm32") {
         return finish_screen(ledger, info, min_amount, opts, supplier_batteries(ledger, opts), cal.as_mut());
     }
@@ -321,7 +342,10 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
     let made: (Mutex<(Vec<NullTable>, usize)>, Condvar) = (Mutex::new((Vec::new(), 0)), Condvar::new());
     let copy_wanted = AtomicBool::new(false);
     let copy: (Mutex<Option<Option<Calibrator>>>, Condvar) = (Mutex::new(None), Condvar::new());
-    let ((Batteries { suppliers, counts, .. }, whole, credits, theirs), mut cal) = std::thread::scope(|sc| {
+    // the whole file's and the credit notes' batteries: taken by the first thread free
+    let whole_taken = AtomicBool::new(false);
+    let take_whole = |on_calibration_thread: bool| beside.map_or_else(|| !whole_taken.swap(true, Ordering::AcqRel), |b| b == on_calibration_thread);
+    let ((Batteries { suppliers, counts, file_duplicates }, mine, theirs), (mut cal, beside)) = std::thread::scope(|sc| {
         let calibration = sc.spawn(|| {
             let give = |c: Option<Calibrator>| {
                 *copy.0.lock().expect("copy") = Some(c);
@@ -361,10 +385,13 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
                 }
             }
             give(None); // nothing (more) to share
-            cal
+            // the whole file's battery beside the suppliers' (its duplicate groups, merged from
+            // theirs, go in afterwards: a placeholder spares the search)
+            let beside = take_whole(true).then(|| whole_file_and_credits_in(ledger, opts, opts.battery.tests.amounts.then(Duplicates::default), WHOLE_BESIDE_PARTS));
+            (cal, beside)
         });
         let mut b = supplier_batteries(ledger, opts);
-        let (whole, credits) = whole_file_and_credits(ledger, opts, b.file_duplicates.take());
+        let mine = take_whole(false).then(|| whole_file_and_credits(ledger, opts, b.file_duplicates.take()));
         // help with the null tables if any are left (their plan is set before the first is taken)
         if let Some((items, sims, seed)) = table_plan.get().filter(|p| next_table.load(Ordering::Acquire) < p.0.len()) {
             let benford = Categorical::new(&crate::benford::first_two());
@@ -391,8 +418,18 @@ pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts:
                 theirs = c.powers_shared(inputs, order, &next);
             }
         }
-        ((b, whole, credits, theirs), calibration.join().expect("calibration thread"))
+        ((b, mine, theirs), calibration.join().expect("calibration thread"))
     });
+    let (whole, credits) = match (mine, beside) {
+        (Some(w), _) => w,
+        (None, Some((mut whole, credits))) => {
+            if let (Some(a), Some(d)) = (whole.tests.amount_checks.as_mut(), file_duplicates) {
+                a.duplicates = d;
+            }
+            (whole, credits)
+        }
+        (None, None) => unreachable!("one thread takes the whole file's battery"),
+    };
     if let (Some(c), Some((inputs, _, _))) = (cal.as_mut(), plan.get()) {
         for (i, r) in theirs {
             c.insert_power(&inputs[i], r);
@@ -487,11 +524,22 @@ pub fn finish_screen(
 /// The whole file's and the credit notes' results (their batteries). `file_duplicates`: the
 /// whole file's duplicate findings from [`supplier_batteries`], when made (else searched here).
 pub fn whole_file_and_credits(ledger: &Ledger, opts: &ScreenOptions, file_duplicates: Option<Duplicates>) -> (SupplierResult, SupplierResult) {
+    whole_file_and_credits_in(ledger, opts, file_duplicates, battery::WINDOW_PARTS)
+}
+
+/// As [`whole_file_and_credits`], the amounts sorted in windows of about 1/parts of them.
+fn whole_file_and_credits_in(ledger: &Ledger, opts: &ScreenOptions, file_duplicates: Option<Duplicates>, parts: usize) -> (SupplierResult, SupplierResult) {
     (
-        population_with(u32::MAX, "(whole file)", ledger.invoices.as_slice(), opts, file_duplicates),
-        population(u32::MAX, "(credit notes)", ledger.credit_notes.as_slice(), opts),
+        population_in_windows(u32::MAX, "(whole file)", ledger.invoices.as_slice(), opts, file_duplicates, parts),
+        population_in_windows(u32::MAX, "(credit notes)", ledger.credit_notes.as_slice(), opts, None, parts),
     )
 }
+
+/// Windows the whole file's amounts are sorted in when its battery runs beside the suppliers'
+/// (natively, on the calibration thread once that is done): a sixteenth of the file (half a
+/// byte per row) instead of a quarter, so that the two batteries together stay within the
+/// memory per row of the suppliers' alone (docs/BENCHMARKS.md).
+const WHOLE_BESIDE_PARTS: usize = 16;
 
 /// [`finish_screen`] with the whole file's and the credit notes' results already made
 /// ([`whole_file_and_credits`]).

@@ -36,3 +36,26 @@ fn two_thread_screen_equals_one_thread_order() {
     assert_eq!(serde_json::to_string(&split).unwrap(), serde_json::to_string(&one).unwrap());
     assert!(split.calibration.as_ref().is_some_and(|c| c.alarms > 0), "the demo has deviating suppliers");
 }
+
+/// The whole file's battery run beside the suppliers' on the calibration thread (its amounts
+/// sorted in narrower windows, its duplicate groups merged from the suppliers' afterwards) or
+/// after them on the battery thread: the same report as the one-thread order, with and without
+/// calibration.
+#[test]
+fn whole_file_beside_or_after_equals_one_thread_order() {
+    let r = demo();
+    let min = IntakeOptions::default().min_amount;
+    for calibrate in [false, true] {
+        let mut opts = ScreenOptions::default();
+        opts.calibration = calibrate.then(|| CalibrationOptions { sims: 1000, ..CalibrationOptions::default() });
+        let mut cal = opts.calibration.clone().map(Calibrator::new);
+        let one = report::finish_screen(&r.ledger, &r.info, min, &opts, report::supplier_batteries(&r.ledger, &opts), cal.as_mut());
+        let groups = one.whole_file.tests.amount_checks.as_ref().map_or(0, |a| a.duplicates.groups.len());
+        assert!(groups > 100, "the demo's whole file has duplicate groups to merge: {groups}");
+        let one = serde_json::to_string(&one).unwrap();
+        for beside in [true, false] {
+            let got = report::screen_with_whole(&r.ledger, &r.info, min, &opts, opts.calibration.clone().map(Calibrator::new), beside);
+            assert_eq!(serde_json::to_string(&got).unwrap(), one, "calibration {calibrate}, beside {beside}");
+        }
+    }
+}

@@ -36,7 +36,7 @@ use crate::benford;
 use crate::ledger::Invoice;
 use serde::Serialize;
 use sort::Sorted;
-pub use sort::WINDOW_MIN;
+pub use sort::{WINDOW_MIN, WINDOW_PARTS};
 use std::fmt;
 use std::str::FromStr;
 
@@ -350,10 +350,10 @@ const PREFETCH: usize = 32;
 
 /// Calls `f` with a population's nonzero amounts as sort keys (|amount| in amount units),
 /// sorted by amount (ties in index order), window by window in ascending order: each window
-/// holds about a quarter of the members at most ([`sort::windows`]), 8 bytes each.
-pub(crate) fn for_each_sorted_window<M: Members + ?Sized>(invoices: &M, mut f: impl FnMut(&Sorted)) {
+/// holds about 1/parts of the members at most ([`sort::windows`]), 8 bytes each.
+pub(crate) fn for_each_sorted_window<M: Members + ?Sized>(invoices: &M, parts: usize, mut f: impl FnMut(&Sorted)) {
     let amount = |i: usize| invoices.at(i).amount.0.unsigned_abs();
-    for w in sort::windows(invoices.len(), amount) {
+    for w in sort::windows(invoices.len(), parts, amount) {
         f(&Sorted::of_window(invoices.len(), amount, w));
     }
 }
@@ -409,6 +409,13 @@ impl TotalsAcc {
 /// given (merged from the parts it is a disjoint union of, by [`DuplicatesMerge`]; the whole
 /// file from its suppliers), which then are not searched again.
 pub fn run_with_totals<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions, known: Option<Duplicates>) -> (Battery, Totals) {
+    run_in_windows(invoices, opts, known, sort::WINDOW_PARTS)
+}
+
+/// As [`run_with_totals`], sorting the amounts in windows of about 1/parts of the members
+/// ([`sort::windows`]; 8 bytes each): more parts hold less at once and take more passes. The
+/// results do not depend on it.
+pub fn run_in_windows<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions, known: Option<Duplicates>, parts: usize) -> (Battery, Totals) {
     let t = opts.tests;
     let mut totals = TotalsAcc::new();
     let mut c1 = [0u64; 9];
@@ -473,7 +480,7 @@ pub fn run_with_totals<M: Members + ?Sized>(invoices: &M, opts: &BatteryOptions,
     if t.second_order || t.amounts {
         let mut so = special::SecondOrderAcc::default();
         let mut runs = amounts::RunsAcc::new(known.is_some());
-        for_each_sorted_window(invoices, |sorted| {
+        for_each_sorted_window(invoices, parts, |sorted| {
             if t.second_order {
                 so.feed(sorted);
             }
@@ -521,7 +528,7 @@ pub fn bin_members_with<M: Members + ?Sized>(test: &str, bin_value: u32, invoice
         "second_order" => {
             let mut out = Vec::new();
             let mut prev: Option<(u64, u32)> = None;
-            for_each_sorted_window(invoices, |sorted| {
+            for_each_sorted_window(invoices, sort::WINDOW_PARTS, |sorted| {
                 for i in 0..sorted.len() {
                     let (k, x) = (sorted.key(i), sorted.idx(i));
                     if let Some((pk, px)) = prev.replace((k, x)) {

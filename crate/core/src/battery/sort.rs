@@ -109,6 +109,8 @@ pub fn bucket(v: u64) -> usize {
 
 /// Populations up to this size are sorted in one window.
 pub const WINDOW_MIN: usize = 1 << 16;
+/// A population is sorted in windows of about a quarter of it ([`windows`]).
+pub const WINDOW_PARTS: usize = 4;
 
 /// One window of a population's amounts: the nonzero amounts in `lo..=hi`, `count` of them
 /// (`usize::MAX`: not counted, the whole population in one window).
@@ -120,13 +122,14 @@ pub struct Window {
 }
 
 /// Split a population's nonzero amounts into windows of consecutive [`bucket`]s holding at
-/// most `max(m / 4, WINDOW_MIN)` members each (a single bucket holding more is a window of its
-/// own), ascending. Windows hold ascending, disjoint ranges of amounts, so sorting each in turn
-/// visits the amounts in sorted order while holding about a quarter of them at once (2 bytes
-/// per member; windows of an eighth ran slower in our runs: twice the passes over the members). One pass
-/// over the amounts (none for a population of at most `WINDOW_MIN`).
-pub fn windows(m: usize, amount: impl Fn(usize) -> u64) -> Vec<Window> {
-    let cap = (m / 4).max(WINDOW_MIN);
+/// most `max(m / parts, WINDOW_MIN)` members each (a single bucket holding more is a window of
+/// its own), ascending. Windows hold ascending, disjoint ranges of amounts, so sorting each in
+/// turn visits the amounts in sorted order while holding about 1/parts of them at once (8 bytes
+/// each: 2 bytes per member for [`WINDOW_PARTS`]; windows of an eighth ran slower in our runs,
+/// twice the passes over the members). One pass over the amounts (none for a population of at
+/// most `WINDOW_MIN`).
+pub fn windows(m: usize, parts: usize, amount: impl Fn(usize) -> u64) -> Vec<Window> {
+    let cap = (m / parts.max(1)).max(WINDOW_MIN);
     if m <= cap {
         return vec![Window { lo: 1, hi: u64::MAX, count: usize::MAX }];
     }
@@ -268,20 +271,22 @@ mod tests {
                 if i % 50 == 0 { 0 } else if i % 3 == 0 { 4_999_900 } else { 1000 + x % 100_000_000 }
             })
             .collect();
-        let w = windows(amounts.len(), |i| amounts[i]);
-        assert!(w.len() >= 4, "{w:?}");
-        let mut all: Vec<(u64, u32)> = Vec::new();
-        let mut last_hi = 0;
-        for &win in &w {
-            assert!(win.lo > last_hi && win.lo <= win.hi, "{w:?}");
-            last_hi = win.hi;
-            assert!(win.count <= 600_000 / 4 || bucket(win.lo) == bucket(win.hi), "window {win:?}");
-            let s = Sorted::of_window(amounts.len(), |i| amounts[i], win);
-            assert_eq!(s.len(), win.count);
-            all.extend((0..s.len()).map(|i| (s.key(i), s.idx(i))));
-        }
         let whole = Sorted::of(amounts.len(), |i| amounts[i]);
-        assert_eq!(all, (0..whole.len()).map(|i| (whole.key(i), whole.idx(i))).collect::<Vec<_>>());
+        for parts in [WINDOW_PARTS, 8] {
+            let w = windows(amounts.len(), parts, |i| amounts[i]);
+            assert!(w.len() >= parts, "{w:?}");
+            let mut all: Vec<(u64, u32)> = Vec::new();
+            let mut last_hi = 0;
+            for &win in &w {
+                assert!(win.lo > last_hi && win.lo <= win.hi, "{w:?}");
+                last_hi = win.hi;
+                assert!(win.count <= 600_000 / parts || bucket(win.lo) == bucket(win.hi), "window {win:?}");
+                let s = Sorted::of_window(amounts.len(), |i| amounts[i], win);
+                assert_eq!(s.len(), win.count);
+                all.extend((0..s.len()).map(|i| (s.key(i), s.idx(i))));
+            }
+            assert_eq!(all, (0..whole.len()).map(|i| (whole.key(i), whole.idx(i))).collect::<Vec<_>>());
+        }
     }
 
     /// `Sorted` gives the stable order by amount (ties by index) in both layouts.
