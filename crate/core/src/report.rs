@@ -310,8 +310,10 @@ pub fn screen_tables(cal: &Calibrator, inputs: &[SupplierInput], invoices: &[u64
 /// batteries' memory is free by then). The whole file's and the credit notes' batteries go to
 /// whichever thread is free first: the second, when it is done before the suppliers' batteries
 /// (large ledgers), sorts the whole file's amounts in narrower windows ([`WHOLE_BESIDE_PARTS`])
-/// and leaves its duplicate groups to be merged from the suppliers' afterwards. Every number is
-/// the same as on one thread (tables and power results are seeded by their own size and path).
+/// and leaves its duplicate groups to be merged from the suppliers' afterwards; once it has
+/// nothing left, the suppliers' batteries take a second thread for the rest of their list. Every
+/// number is the same as on one thread (tables and power results are seeded by their own size
+/// and path).
 pub fn screen_with(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: &ScreenOptions, cal: Option<Calibrator>) -> ScreenReport {
     screen_threads(ledger, info, min_amount, opts, cal, None)
 }
@@ -344,6 +346,9 @@ fn screen_threads(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: 
     let copy: (Mutex<Option<Option<Calibrator>>>, Condvar) = (Mutex::new(None), Condvar::new());
     // the whole file's and the credit notes' batteries: taken by the first thread free
     let whole_taken = AtomicBool::new(false);
+    // set once the calibration thread has nothing left: the suppliers' batteries may then use
+    // a second thread
+    let core_free = AtomicBool::new(false);
     let take_whole = |on_calibration_thread: bool| beside.map_or_else(|| !whole_taken.swap(true, Ordering::AcqRel), |b| b == on_calibration_thread);
     let ((Batteries { suppliers, counts, file_duplicates }, mine, theirs), (mut cal, beside)) = std::thread::scope(|sc| {
         let calibration = sc.spawn(|| {
@@ -388,9 +393,10 @@ fn screen_threads(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: 
             // the whole file's battery beside the suppliers' (its duplicate groups, merged from
             // theirs, go in afterwards: a placeholder spares the search)
             let beside = take_whole(true).then(|| whole_file_and_credits_in(ledger, opts, opts.battery.tests.amounts.then(Duplicates::default), WHOLE_BESIDE_PARTS));
+            core_free.store(true, Ordering::Release);
             (cal, beside)
         });
-        let mut b = supplier_batteries(ledger, opts);
+        let mut b = supplier_batteries_with(ledger, opts, Some(&core_free)).0;
         let mine = take_whole(false).then(|| whole_file_and_credits(ledger, opts, b.file_duplicates.take()));
         // help with the null tables if any are left (their plan is set before the first is taken)
         if let Some((items, sims, seed)) = table_plan.get().filter(|p| next_table.load(Ordering::Acquire) < p.0.len()) {
@@ -451,6 +457,22 @@ pub struct Batteries {
 
 /// The first half of [`screen`]: every supplier's battery ([`Batteries`]).
 pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> Batteries {
+    supplier_batteries_with(ledger, opts, None).0
+}
+
+/// [`supplier_batteries`] with a second thread taking suppliers from the other end of the list
+/// from the start (for tests: the same batteries); also how many suppliers it took.
+#[doc(hidden)]
+pub fn supplier_batteries_helped(ledger: &Ledger, opts: &ScreenOptions) -> (Batteries, usize) {
+    supplier_batteries_with(ledger, opts, Some(&AtomicBool::new(true)))
+}
+
+/// [`supplier_batteries`]; once `core_free` is set (the other thread has nothing left to do), a
+/// second thread takes the suppliers after the largest from the end of the list while this one
+/// goes on from the front, until the two meet. Each supplier's battery reads only its own
+/// members, and the whole file's duplicate groups are merged by a total order, so the result is
+/// the same. Returns the batteries and how many suppliers the second thread took.
+fn supplier_batteries_with(ledger: &Ledger, opts: &ScreenOptions, core_free: Option<&AtomicBool>) -> (Batteries, usize) {
     // Memory: the largest supplier first, read through a list of its own invoice indices (or
     // the whole file as a slice when it has every invoice); then the others through one exactly
     // sized index array of theirs (4 bytes per invoice). No list of references is built.
@@ -462,6 +484,7 @@ pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> Batteries {
     let big = (0..k).max_by_key(|&s| (sizes[s], std::cmp::Reverse(s))).filter(|&s| sizes[s] > 0);
     let mut out: Vec<Option<(SupplierResult, Vec<u64>)>> = (0..k).map(|_| None).collect();
     let mut merge = DuplicatesMerge::default();
+    let keep = opts.battery.max_duplicate_groups;
     // One supplier's result and counts; its duplicates go to the whole file's, with its member
     // i at file index `at(i)`.
     fn one<M: Members + ?Sized>(ledger: &Ledger, sid: usize, invs: &M, at: impl Fn(usize) -> usize, opts: &ScreenOptions, merge: &mut DuplicatesMerge) -> Option<(SupplierResult, Vec<u64>)> {
@@ -482,27 +505,62 @@ pub fn supplier_batteries(ledger: &Ledger, opts: &ScreenOptions) -> Batteries {
         };
     }
     let order = ledger.supplier_order_without(big.map(|b| b as u32));
-    // A supplier of up to WINDOW_MIN invoices is copied out first (one bounded buffer, at most
-    // 1.8 MB, reused): its battery then reads them from cache instead of gathering them from
-    // the whole store on every pass. Larger ones are read in place through their indices.
+    // A supplier of up to WINDOW_MIN invoices is copied out first (one bounded buffer per
+    // thread, at most 1.8 MB, reused): its battery then reads them from cache instead of
+    // gathering them from the whole store on every pass. Larger ones are read in place through
+    // their indices.
     let small = (0..k).filter(|&s| Some(s) != big && sizes[s] <= battery::WINDOW_MIN).map(|s| sizes[s]).max().unwrap_or(0);
-    let mut copy: Vec<Invoice> = Vec::with_capacity(small);
-    for sid in (0..k).filter(|&s| Some(s) != big && sizes[s] > 0) {
+    let sids: Vec<usize> = (0..k).filter(|&s| Some(s) != big && sizes[s] > 0).collect();
+    let taken: Vec<AtomicBool> = sids.iter().map(|_| AtomicBool::new(false)).collect();
+    let run = |sid: usize, copy: &mut Vec<Invoice>, merge: &mut DuplicatesMerge| {
         let idx = order.of(sid);
         let at = |i: usize| idx[i] as usize;
-        out[sid] = if idx.len() <= battery::WINDOW_MIN {
+        if idx.len() <= battery::WINDOW_MIN {
             copy.clear();
             let members = Indexed { all: &ledger.invoices, idx };
             copy.extend((0..idx.len()).map(|p| *members.at(p)));
-            one(ledger, sid, copy.as_slice(), at, opts, &mut merge)
+            one(ledger, sid, copy.as_slice(), at, opts, merge)
         } else {
-            one(ledger, sid, &Indexed { all: &ledger.invoices, idx }, at, opts, &mut merge)
-        };
-    }
-    drop(copy);
+            one(ledger, sid, &Indexed { all: &ledger.invoices, idx }, at, opts, merge)
+        }
+    };
+    let helped = std::thread::scope(|sc| {
+        let mut helper = None;
+        let mut copy: Vec<Invoice> = Vec::with_capacity(small);
+        for (j, &sid) in sids.iter().enumerate() {
+            if taken[j].swap(true, Ordering::AcqRel) {
+                break; // the second thread, coming from the end, has taken the rest
+            }
+            if helper.is_none() && j + 1 < sids.len() && core_free.is_some_and(|f| f.load(Ordering::Acquire)) {
+                let (sids, taken, run) = (&sids, &taken, &run);
+                helper = Some(sc.spawn(move || {
+                    let (mut copy, mut m, mut done) = (Vec::with_capacity(small), DuplicatesMerge::default(), Vec::new());
+                    for j in (0..sids.len()).rev() {
+                        if taken[j].swap(true, Ordering::AcqRel) {
+                            break;
+                        }
+                        done.push((sids[j], run(sids[j], &mut copy, &mut m)));
+                    }
+                    (done, m)
+                }));
+            }
+            out[sid] = run(sid, &mut copy, &mut merge);
+        }
+        let Some(h) = helper else { return 0 };
+        let (done, m) = h.join().expect("battery helper thread");
+        let n = done.len();
+        for (sid, r) in done {
+            out[sid] = r;
+        }
+        // its groups carry file indices already; the merge keeps the same groups in any order
+        if let Some(d) = m.finish(keep) {
+            merge.add(&d, |i| i, keep);
+        }
+        n
+    });
     drop(order);
     let (suppliers, counts) = out.into_iter().flatten().unzip();
-    Batteries { suppliers, counts, file_duplicates: merge.finish(opts.battery.max_duplicate_groups) }
+    (Batteries { suppliers, counts, file_duplicates: merge.finish(keep) }, helped)
 }
 
 /// The second half of [`screen`]: calibration with `cal` (made from `opts.calibration`, and

@@ -59,3 +59,19 @@ fn whole_file_beside_or_after_equals_one_thread_order() {
         }
     }
 }
+
+/// The suppliers' batteries with a second thread taking suppliers from the end of the list: the
+/// same batteries, counts and merged duplicate groups as one thread.
+#[test]
+fn suppliers_batteries_on_two_threads_equal_one() {
+    let r = demo();
+    let opts = ScreenOptions::default();
+    let one = report::supplier_batteries(&r.ledger, &opts);
+    let (two, helped) = report::supplier_batteries_helped(&r.ledger, &opts);
+    assert!(helped >= 5, "the second thread took {helped} suppliers");
+    assert_eq!(serde_json::to_string(&two.suppliers).unwrap(), serde_json::to_string(&one.suppliers).unwrap());
+    assert_eq!(two.counts, one.counts);
+    let dup = |b: &report::Batteries| serde_json::to_string(&b.file_duplicates).unwrap();
+    assert!(one.file_duplicates.as_ref().is_some_and(|d| d.groups.len() > 100));
+    assert_eq!(dup(&two), dup(&one));
+}
