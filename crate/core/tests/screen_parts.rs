@@ -46,8 +46,7 @@ fn whole_file_beside_or_after_equals_one_thread_order() {
     let r = demo();
     let min = IntakeOptions::default().min_amount;
     for calibrate in [false, true] {
-        let mut opts = ScreenOptions::default();
-        opts.calibration = calibrate.then(|| CalibrationOptions { sims: 1000, ..CalibrationOptions::default() });
+        let opts = ScreenOptions { calibration: calibrate.then(|| CalibrationOptions { sims: 1000, ..CalibrationOptions::default() }), ..ScreenOptions::default() };
         let mut cal = opts.calibration.clone().map(Calibrator::new);
         let one = report::finish_screen(&r.ledger, &r.info, min, &opts, report::supplier_batteries(&r.ledger, &opts), cal.as_mut());
         let groups = one.whole_file.tests.amount_checks.as_ref().map_or(0, |a| a.duplicates.groups.len());
