@@ -704,36 +704,61 @@ impl Run {
             Enc::Utf8 | Enc::Utf8Bom => None,
             e => Some(e.encoding().new_decoder_without_bom_handling()),
         };
-        let mut run = Run {
-            setup: Setup {
-                enc,
-                delim: b',',
-                header_line: 0,
-                header: vec![],
-                columns: vec![],
-                mapping: ColumnMapping { supplier: 0, amount: 0, date: None, invoice: None },
-                need: 0,
-                width: 0,
-                header_amount: vec![],
-                header_supplier: vec![],
-                body_start: 0,
-                body_line: 1,
-                warnings: vec![],
-            },
-            scanner: Scanner::new(b','),
-            decoder,
-            work: Vec::with_capacity(raw.len() + 1024),
+        let setup = Setup {
+            enc,
+            delim: b',',
+            header_line: 0,
+            header: vec![],
+            columns: vec![],
+            mapping: ColumnMapping { supplier: 0, amount: 0, date: None, invoice: None },
+            need: 0,
+            width: 0,
+            header_amount: vec![],
+            header_supplier: vec![],
+            body_start: 0,
+            body_line: 1,
+            warnings: vec![],
+        };
+        let order = match opts.date_order {
+            Some(DateOrder::Ymd) | None => None,
+            o => o,
+        };
+        let mut run = Run::fresh(setup, Amount(opts.min_amount.0.abs()), opts.decimal, order, opts.date_order == Some(DateOrder::Ymd));
+        run.decoder = decoder;
+        run.work = Vec::with_capacity(raw.len() + 1024);
+        run.preview = if preview { Some(Vec::new()) } else { None };
+        run.decode(&raw[bom..], eof);
+        run.setup = analyse_head(&run.work, eof, enc, opts)?;
+        run.scanner = Scanner::new(run.setup.delim);
+        run.pos = run.setup.body_start;
+        run.line = run.setup.body_line;
+        run.total_prefixes = columns::total_prefixes();
+        for p in &run.total_prefixes {
+            run.total_first[p[0] as usize] = true;
+        }
+        if opts.decimal.is_none() {
+            run.sniff_conventions(eof);
+        }
+        run.process(eof, true)?;
+        Ok(run)
+    }
+
+    /// A run with these settings and nothing read: lines from 1, no suppliers, no sums, no
+    /// decoder or preview, the totals words not loaded.
+    fn fresh(setup: Setup, min_amount: Amount, conv: Option<DecimalConvention>, order: Option<DateOrder>, ymd_only: bool) -> Run {
+        Run {
+            scanner: Scanner::new(setup.delim),
+            setup,
+            decoder: None,
+            work: Vec::new(),
             pos: 0,
             line: 1,
             rec: Record::default(),
-            min_amount: Amount(opts.min_amount.0.abs()),
-            conv: opts.decimal,
-            order: match opts.date_order {
-                Some(DateOrder::Ymd) | None => None,
-                o => o,
-            },
+            min_amount,
+            conv,
+            order,
             saw_iso: false,
-            ymd_only: opts.date_order == Some(DateOrder::Ymd),
+            ymd_only,
             ledger: Ledger::default(),
             raw_map: intern::Interner::default(),
             key_map: HashMap::new(),
@@ -751,24 +776,10 @@ impl Run {
             decimal_votes: (0, 0),
             total_prefixes: Vec::new(),
             total_first: [false; 256],
-            preview: if preview { Some(Vec::new()) } else { None },
+            preview: None,
             sum_rows: false,
             reset: false,
-        };
-        run.decode(&raw[bom..], eof);
-        run.setup = analyse_head(&run.work, eof, enc, opts)?;
-        run.scanner = Scanner::new(run.setup.delim);
-        run.pos = run.setup.body_start;
-        run.line = run.setup.body_line;
-        run.total_prefixes = columns::total_prefixes();
-        for p in &run.total_prefixes {
-            run.total_first[p[0] as usize] = true;
         }
-        if opts.decimal.is_none() {
-            run.sniff_conventions(eof);
-        }
-        run.process(eof, true)?;
-        Ok(run)
     }
 
     /// Decide the decimal convention (majority of the cells that tell) and the date order

@@ -496,40 +496,11 @@ impl Intake {
 impl Run {
     /// A run with this one's settings and nothing read: lines from 1, no suppliers.
     fn clone_part(&self) -> Box<Run> {
-        Box::new(Run {
-            setup: self.setup.clone(),
-            scanner: Scanner::new(self.setup.delim),
-            decoder: None,
-            work: Vec::new(),
-            pos: 0,
-            line: 1,
-            rec: Record::default(),
-            min_amount: self.min_amount,
-            conv: self.conv,
-            order: self.order,
-            saw_iso: false,
-            ymd_only: self.ymd_only,
-            ledger: Ledger::default(),
-            raw_map: intern::Interner::default(),
-            key_map: HashMap::new(),
-            deferred: Vec::new(),
-            reserved: true,
-            date_alts: Vec::new(),
-            amb_dec: Vec::new(),
-            amb_date: Vec::new(),
-            run_sum: 0,
-            run_rows: 0,
-            grand_sum: 0,
-            grand_rows: 0,
-            bad_dates: 0,
-            recoded_names: 0,
-            decimal_votes: (0, 0),
-            total_prefixes: self.total_prefixes.clone(),
-            total_first: self.total_first,
-            preview: None,
-            sum_rows: false,
-            reset: false,
-        })
+        let mut r = Run::fresh(self.setup.clone(), self.min_amount, self.conv, self.order, self.ymd_only);
+        r.reserved = true;
+        r.total_prefixes = self.total_prefixes.clone();
+        r.total_first = self.total_first;
+        Box::new(r)
     }
 
     /// Append part `p` when reading it in turn could not have differed (see the module text);
