@@ -94,9 +94,7 @@ pub struct SplitStats {
 }
 
 /// A segment read on its own (see the module text), to be joined by [`Intake::join_part`].
-struct Part(PartKind);
-
-enum PartKind {
+enum Part {
     /// No line starts in it.
     Empty,
     Read(Box<PartData>),
@@ -237,17 +235,17 @@ impl PartReader {
     /// then ends with it).
     fn finish(mut self, file_ended: bool) -> Part {
         if self.failed {
-            return Part(PartKind::Unfit);
+            return Part::Unfit;
         }
         if self.fed == 0 {
-            return Part(if self.cut.done() || file_ended { PartKind::Empty } else { PartKind::Unfit });
+            return if self.cut.done() || file_ended { Part::Empty } else { Part::Unfit };
         }
         // a segment that did not reach its end LF ends with the file (or cannot stand alone)
         if !self.cut.done() && (!file_ended || self.run.push(&[], true).is_err()) {
-            return Part(PartKind::Unfit);
+            return Part::Unfit;
         }
         let r = *self.run;
-        Part(PartKind::Read(Box::new(PartData {
+        Part::Read(Box::new(PartData {
             fed: self.fed,
             start_order: self.start_order,
             order: r.order,
@@ -267,7 +265,7 @@ impl PartReader {
             grand_rows: r.grand_rows,
             line: r.line,
             open: r.work[r.pos..].to_vec(),
-        })))
+        }))
     }
 }
 
@@ -292,7 +290,7 @@ fn read_part<S: ByteSource + ?Sized>(src: &S, segment: u64, k: usize, tpl: &Run,
     loop {
         let c = match read_chunk(src, r.offset(), buf) {
             Ok(c) => c,
-            Err(_) => return Part(PartKind::Unfit),
+            Err(_) => return Part::Unfit,
         };
         if c.is_empty() {
             return r.finish(true);
@@ -403,7 +401,7 @@ fn split_read<S: ByteSource + ?Sized, T: Send>(
                             None => break,
                         }
                     };
-                    let read = matches!(part.0, PartKind::Read(..));
+                    let read = matches!(part, Part::Read(..));
                     if !intake.join_part(part) {
                         failed = Some(joined);
                         break;
@@ -478,10 +476,10 @@ impl Intake {
     /// segment's start ([`SegmentCut::rest`]).
     fn join_part(&mut self, part: Part) -> bool {
         let State::Run(run) = &mut self.state else { return false };
-        match part.0 {
-            PartKind::Empty => true,
-            PartKind::Unfit => false,
-            PartKind::Read(p) => {
+        match part {
+            Part::Empty => true,
+            Part::Unfit => false,
+            Part::Read(p) => {
                 let fed = p.fed;
                 if !run.join(*p) {
                     return false;
