@@ -35,7 +35,11 @@ pub fn intake_options(a: &Args) -> Result<IntakeOptions, String> {
 
 /// Read a ledger file (or `-` for standard input) through the intake.
 pub fn read_ledger(path: &str, opts: IntakeOptions) -> Result<IntakeResult, String> {
-    read_ledger_with(path, opts, || ()).0
+    #[cfg(unix)]
+    if let Some(f) = split_file(path) {
+        return read_split_file(path, &f, opts, || ()).0;
+    }
+    stream_ledger(path, opts)
 }
 
 /// [`read_ledger`] with other work (`first`) done on a second thread meanwhile. A regular file
@@ -44,19 +48,30 @@ pub fn read_ledger(path: &str, opts: IntakeOptions) -> Result<IntakeResult, Stri
 /// streamed in 1 MiB chunks on this thread.
 pub fn read_ledger_with<T: Send>(path: &str, opts: IntakeOptions, first: impl FnOnce() -> T + Send) -> (Result<IntakeResult, String>, T) {
     #[cfg(unix)]
-    if path != "-" {
-        if let Ok(f) = std::fs::File::open(path) {
-            if f.metadata().is_ok_and(|m| m.is_file() && m.len() >= 2 * digitdrift_core::intake::SEGMENT) {
-                let (r, out) = digitdrift_core::intake::read_split(&f, opts, digitdrift_core::intake::SEGMENT, first);
-                return (r.map(|(r, _)| r).map_err(|e| format!("{path}: {e}")), out);
-            }
-        }
+    if let Some(f) = split_file(path) {
+        return read_split_file(path, &f, opts, first);
     }
     std::thread::scope(|sc| {
         let other = sc.spawn(first);
         let r = stream_ledger(path, opts);
         (r, other.join().expect("second thread"))
     })
+}
+
+/// The file at `path`, when it is a regular file of at least two segments (read on two threads).
+#[cfg(unix)]
+fn split_file(path: &str) -> Option<std::fs::File> {
+    if path == "-" {
+        return None;
+    }
+    let f = std::fs::File::open(path).ok()?;
+    f.metadata().is_ok_and(|m| m.is_file() && m.len() >= 2 * digitdrift_core::intake::SEGMENT).then_some(f)
+}
+
+#[cfg(unix)]
+fn read_split_file<T: Send>(path: &str, f: &std::fs::File, opts: IntakeOptions, first: impl FnOnce() -> T + Send) -> (Result<IntakeResult, String>, T) {
+    let (r, out) = digitdrift_core::intake::read_split(f, opts, digitdrift_core::intake::SEGMENT, first);
+    (r.map(|(r, _)| r).map_err(|e| format!("{path}: {e}")), out)
 }
 
 /// Stream a file (or `-` for standard input) through the intake in 1 MiB chunks.
