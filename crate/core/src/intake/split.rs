@@ -97,38 +97,10 @@ pub struct SplitStats {
 enum Part {
     /// No line starts in it.
     Empty,
-    Read(Box<PartData>),
-    /// It could not stand alone (an error, or the bytes ended before its end).
+    /// The run it was read into, the bytes it was fed, and the day/month order it started from.
+    Read(Box<Run>, u64, Option<DateOrder>),
+    /// It could not stand alone (an error, or the file ended inside its last record).
     Unfit,
-}
-
-/// What joining reads of a part read on its own (lines numbered from 1, suppliers numbered in
-/// the part).
-struct PartData {
-    /// Bytes it was fed.
-    fed: u64,
-    /// The day/month order it started from, and the one it ended with.
-    start_order: Option<DateOrder>,
-    order: Option<DateOrder>,
-    conv: Option<DecimalConvention>,
-    /// Rows held back for the decimal convention (none when the convention was known).
-    deferred: usize,
-    sum_rows: bool,
-    recoded_names: u64,
-    ledger: Ledger,
-    date_alts: Vec<(u32, i32)>,
-    amb_date: Vec<String>,
-    saw_iso: bool,
-    bad_dates: u64,
-    run_sum: i128,
-    run_rows: u64,
-    reset: bool,
-    grand_sum: i128,
-    grand_rows: u64,
-    /// The next line's number.
-    line: u64,
-    /// A record left open at its end.
-    open: Vec<u8>,
 }
 
 /// Cuts segment k out of the bytes pushed from its nominal start (k · segment) on: skips to
@@ -200,75 +172,6 @@ impl SegmentCut {
     }
 }
 
-/// Reads one segment into a [`Part`]: push the file's bytes from the segment's nominal start
-/// with [`PartReader::feed`] until it wants no more (or the file ends), then
-/// [`PartReader::finish`].
-struct PartReader {
-    run: Box<Run>,
-    cut: SegmentCut,
-    fed: u64,
-    start_order: Option<DateOrder>,
-    failed: bool,
-}
-
-impl PartReader {
-    fn of(tpl: &Run, segment: u64, k: usize) -> PartReader {
-        PartReader { run: tpl.clone_part(), cut: SegmentCut::new(segment, k), fed: 0, start_order: tpl.order, failed: false }
-    }
-
-    /// The file offset the next pushed bytes must start at.
-    fn offset(&self) -> u64 {
-        self.cut.offset()
-    }
-
-    /// Push the next bytes of the file; false once the segment has all it needs.
-    fn feed(&mut self, chunk: &[u8]) -> bool {
-        let c = self.cut.cut(chunk);
-        if !c.is_empty() && !self.failed {
-            self.fed += c.len() as u64;
-            self.failed = self.run.push(c, false).is_err();
-        }
-        !self.cut.done() && !self.failed
-    }
-
-    /// The part. `file_ended`: the file has no bytes after the last ones pushed (the segment
-    /// then ends with it).
-    fn finish(mut self, file_ended: bool) -> Part {
-        if self.failed {
-            return Part::Unfit;
-        }
-        if self.fed == 0 {
-            return if self.cut.done() || file_ended { Part::Empty } else { Part::Unfit };
-        }
-        // a segment that did not reach its end LF ends with the file (or cannot stand alone)
-        if !self.cut.done() && (!file_ended || self.run.push(&[], true).is_err()) {
-            return Part::Unfit;
-        }
-        let r = *self.run;
-        Part::Read(Box::new(PartData {
-            fed: self.fed,
-            start_order: self.start_order,
-            order: r.order,
-            conv: r.conv,
-            deferred: r.deferred.len(),
-            sum_rows: r.sum_rows,
-            recoded_names: r.recoded_names,
-            ledger: r.ledger,
-            date_alts: r.date_alts,
-            amb_date: r.amb_date,
-            saw_iso: r.saw_iso,
-            bad_dates: r.bad_dates,
-            run_sum: r.run_sum,
-            run_rows: r.run_rows,
-            reset: r.reset,
-            grand_sum: r.grand_sum,
-            grand_rows: r.grand_rows,
-            line: r.line,
-            open: r.work[r.pos..].to_vec(),
-        }))
-    }
-}
-
 /// Feed segment k (from a [`SegmentCut`]) to `feed`. Returns whether the file ended within it.
 fn feed_cut<S: ByteSource + ?Sized>(src: &S, mut cut: SegmentCut, buf: &mut Vec<u8>, feed: &mut dyn FnMut(&[u8]) -> Result<(), IntakeError>) -> Result<bool, ReadError> {
     while !cut.done() {
@@ -286,17 +189,21 @@ fn feed_cut<S: ByteSource + ?Sized>(src: &S, mut cut: SegmentCut, buf: &mut Vec<
 
 /// Segment k read on its own into a part (from `tpl`'s settings).
 fn read_part<S: ByteSource + ?Sized>(src: &S, segment: u64, k: usize, tpl: &Run, buf: &mut Vec<u8>) -> Part {
-    let mut r = PartReader::of(tpl, segment, k);
-    loop {
-        let c = match read_chunk(src, r.offset(), buf) {
-            Ok(c) => c,
-            Err(_) => return Part::Unfit,
-        };
-        if c.is_empty() {
-            return r.finish(true);
-        }
-        if !r.feed(c) {
-            return r.finish(false);
+    let mut run = tpl.clone_part();
+    let mut fed = 0u64;
+    let ended = feed_cut(src, SegmentCut::new(segment, k), buf, &mut |c| {
+        fed += c.len() as u64;
+        run.push(c, false)
+    });
+    match ended {
+        Err(_) => Part::Unfit,
+        Ok(_) if fed == 0 => Part::Empty,
+        Ok(ended) => {
+            // a segment that did not reach its end LF ends with the file
+            if ended && run.push(&[], true).is_err() {
+                return Part::Unfit;
+            }
+            Part::Read(run, fed, tpl.order)
         }
     }
 }
@@ -479,9 +386,8 @@ impl Intake {
         match part {
             Part::Empty => true,
             Part::Unfit => false,
-            Part::Read(p) => {
-                let fed = p.fed;
-                if !run.join(*p) {
+            Part::Read(p, fed, start_order) => {
+                if !run.join(*p, start_order) {
                     return false;
                 }
                 self.bytes_fed += fed;
@@ -501,15 +407,16 @@ impl Run {
         Box::new(r)
     }
 
-    /// Append part `p` when reading it in turn could not have differed (see the module text);
-    /// false, leaving self as it was, otherwise.
-    fn join(&mut self, p: PartData) -> bool {
+    /// Append part `p` (read from settings with day/month order `start_order`) when reading it
+    /// in turn could not have differed (see the module text); false, leaving self as it was,
+    /// otherwise.
+    fn join(&mut self, p: Run, start_order: Option<DateOrder>) -> bool {
         let fits = self.pos == self.work.len()
             && self.conv.is_some()
             && p.conv == self.conv
-            && self.order == p.start_order
-            && p.order == p.start_order
-            && p.deferred == 0
+            && self.order == start_order
+            && p.order == start_order
+            && p.deferred.is_empty()
             && !p.sum_rows
             && p.recoded_names == 0;
         if !fits {
@@ -572,8 +479,8 @@ impl Run {
         self.grand_rows += p.grand_rows;
         self.line = p.line + off;
         // a record the part left open continues in the next segment
-        self.work = p.open;
-        self.pos = 0;
+        self.work = p.work;
+        self.pos = p.pos;
         true
     }
 }
