@@ -126,19 +126,33 @@ impl Accounting {
     pub fn exclude(&mut self, reason: ExclusionReason, line: u64) {
         self.read += 1;
         self.excluded += 1;
+        self.add_excluded(reason, 1, std::iter::once(line));
+    }
+    /// Add the rows of a later part of the same file, read on its own with its lines numbered
+    /// from 1 (`line_offset`: the lines before it): counts summed, the first rows kept.
+    pub(crate) fn absorb(&mut self, later: Accounting, line_offset: u64) {
+        self.read += later.read;
+        self.analysed += later.analysed;
+        self.excluded += later.excluded;
+        for e in later.exclusions {
+            self.add_excluded(e.reason, e.count, e.rows.into_iter().map(|l| l + line_offset));
+        }
+    }
+    /// `count` more rows excluded for `reason`, the first of them on lines `rows`: the first
+    /// [`EXCLUSION_ROWS_KEPT`] line numbers are kept, reasons in order.
+    fn add_excluded(&mut self, reason: ExclusionReason, count: u64, rows: impl Iterator<Item = u64>) {
         match self.exclusions.iter_mut().find(|e| e.reason == reason) {
             Some(e) => {
-                e.count += 1;
-                if e.rows.len() < EXCLUSION_ROWS_KEPT {
-                    e.rows.push(line);
-                }
+                e.count += count;
+                let room = EXCLUSION_ROWS_KEPT.saturating_sub(e.rows.len());
+                e.rows.extend(rows.take(room));
             }
             None => {
                 self.exclusions.push(Exclusion {
                     reason,
                     description: reason.describe(),
-                    count: 1,
-                    rows: vec![line],
+                    count,
+                    rows: rows.take(EXCLUSION_ROWS_KEPT).collect(),
                 });
                 self.exclusions.sort_by_key(|e| e.reason);
             }

@@ -444,25 +444,7 @@ impl Run {
             }
             to.extend(from.iter().map(moved));
         }
-        let acc = &mut self.ledger.accounting;
-        let pa = p.ledger.accounting;
-        acc.read += pa.read;
-        acc.analysed += pa.analysed;
-        acc.excluded += pa.excluded;
-        for e in pa.exclusions {
-            let rows = e.rows.iter().map(|&l| l + off);
-            match acc.exclusions.iter_mut().find(|x| x.reason == e.reason) {
-                Some(x) => {
-                    x.count += e.count;
-                    let room = crate::ledger::EXCLUSION_ROWS_KEPT.saturating_sub(x.rows.len());
-                    x.rows.extend(rows.take(room));
-                }
-                None => {
-                    acc.exclusions.push(crate::ledger::Exclusion { rows: rows.collect(), ..e });
-                    acc.exclusions.sort_by_key(|x| x.reason);
-                }
-            }
-        }
+        self.ledger.accounting.absorb(p.ledger.accounting, off);
         self.date_alts.extend(p.date_alts.iter().map(|&(l, d)| ((l as u64 + off) as u32, d)));
         let room = 3usize.saturating_sub(self.amb_date.len());
         self.amb_date.extend(p.amb_date.into_iter().take(room));
