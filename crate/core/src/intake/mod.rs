@@ -347,11 +347,21 @@ const RESERVE_AFTER: u64 = 1 << 20;
 /// realloc is a remap; in wasm linear memory it is a copy, old and new block at once.)
 #[inline]
 pub(crate) fn push_bounded(v: &mut Vec<Invoice>, inv: Invoice) {
-    if v.len() == v.capacity() {
-        v.reserve_exact((v.len() / 8).max(1024));
-    }
+    reserve_bounded(v, 1);
     v.push(inv);
 }
+
+/// Room for `more` invoices in a store that grows as [`push_bounded`] says: by `more` or by 1/8
+/// of its length, whichever is more (at least 1,024).
+#[inline]
+pub(crate) fn reserve_bounded(v: &mut Vec<Invoice>, more: usize) {
+    if v.capacity() - v.len() < more {
+        v.reserve_exact(more.max(v.len() / 8).max(1024));
+    }
+}
+
+/// Example cells kept for a message about an undecided convention (decimal mark, day/month order).
+const EXAMPLES_KEPT: usize = 3;
 
 /// What the head of the file decided.
 #[derive(Clone)]
@@ -1003,7 +1013,7 @@ impl Run {
                 Hint::Comma => self.set_decimal(DecimalConvention::Comma),
                 Hint::Ambiguous => {
                     held = true;
-                    if self.amb_dec.len() < 3 {
+                    if self.amb_dec.len() < EXAMPLES_KEPT {
                         self.amb_dec.push(String::from_utf8_lossy(raw_amount).into_owned());
                     }
                 }
@@ -1039,7 +1049,7 @@ impl Run {
                     Some(DateCell::Ambiguous { dmy, mdy }) => {
                         date = dmy;
                         self.date_alts.push((line as u32, mdy));
-                        if self.amb_date.len() < 3 {
+                        if self.amb_date.len() < EXAMPLES_KEPT {
                             self.amb_date.push(String::from_utf8_lossy(cell).into_owned());
                         }
                     }

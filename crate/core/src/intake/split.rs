@@ -439,14 +439,12 @@ impl Run {
             .collect();
         let moved = |inv: &Invoice| Invoice::new(inv.amount, inv.invoice_hash, ids[inv.supplier as usize], inv.date, inv.line() as u64 + off);
         for (to, from) in [(&mut self.ledger.invoices, &p.ledger.invoices), (&mut self.ledger.credit_notes, &p.ledger.credit_notes)] {
-            if to.capacity() - to.len() < from.len() {
-                to.reserve_exact(from.len().max(to.len() / 8));
-            }
+            reserve_bounded(to, from.len());
             to.extend(from.iter().map(moved));
         }
         self.ledger.accounting.absorb(p.ledger.accounting, off);
         self.date_alts.extend(p.date_alts.iter().map(|&(l, d)| ((l as u64 + off) as u32, d)));
-        let room = 3usize.saturating_sub(self.amb_date.len());
+        let room = EXAMPLES_KEPT.saturating_sub(self.amb_date.len());
         self.amb_date.extend(p.amb_date.into_iter().take(room));
         self.saw_iso |= p.saw_iso;
         self.bad_dates += p.bad_dates;
