@@ -742,10 +742,6 @@ impl Run {
         run.scanner = Scanner::new(run.setup.delim);
         run.pos = run.setup.body_start;
         run.line = run.setup.body_line;
-        run.total_prefixes = columns::total_prefixes();
-        for p in &run.total_prefixes {
-            run.total_first[p[0] as usize] = true;
-        }
         if opts.decimal.is_none() {
             run.sniff_conventions(eof);
         }
@@ -754,8 +750,13 @@ impl Run {
     }
 
     /// A run with these settings and nothing read: lines from 1, no suppliers, no sums, no
-    /// decoder or preview, the totals words not loaded.
+    /// decoder or preview.
     fn fresh(setup: Setup, min_amount: Amount, conv: Option<DecimalConvention>, order: Option<DateOrder>, ymd_only: bool) -> Run {
+        let total_prefixes = columns::total_prefixes();
+        let mut total_first = [false; 256];
+        for p in &total_prefixes {
+            total_first[p[0] as usize] = true;
+        }
         Run {
             scanner: Scanner::new(setup.delim),
             setup,
@@ -784,8 +785,8 @@ impl Run {
             bad_dates: 0,
             recoded_names: 0,
             decimal_votes: (0, 0),
-            total_prefixes: Vec::new(),
-            total_first: [false; 256],
+            total_prefixes,
+            total_first,
             preview: None,
             sum_rows: false,
             reset: false,
@@ -969,9 +970,7 @@ impl Run {
             exclude!(ExclusionReason::RepeatedHeader);
         }
         if self.is_totals_word(rec) {
-            self.run_sum = 0;
-            self.run_rows = 0;
-            self.reset = true;
+            self.end_running_sum();
             exclude!(ExclusionReason::TotalsLine);
         }
         if width > self.setup.width {
@@ -988,9 +987,7 @@ impl Run {
                 let v = a.0 as i128;
                 self.sum_rows |= v != 0;
                 if v != 0 && ((self.run_rows > 0 && v == self.run_sum) || (self.grand_rows > 0 && v == self.grand_sum)) {
-                    self.run_sum = 0;
-                    self.run_rows = 0;
-                    self.reset = true;
+                    self.end_running_sum();
                     exclude!(ExclusionReason::TotalsLine);
                 }
             }
@@ -1083,6 +1080,13 @@ impl Run {
             return None;
         }
         self.classify(inv)
+    }
+
+    /// A totals row ends the running sum (the rows since the last total).
+    fn end_running_sum(&mut self) {
+        self.run_sum = 0;
+        self.run_rows = 0;
+        self.reset = true;
     }
 
     /// Invoice (signed amount) -> invoices, credit notes or below minimum.

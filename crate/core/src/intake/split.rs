@@ -402,8 +402,6 @@ impl Run {
     fn clone_part(&self) -> Box<Run> {
         let mut r = Run::fresh(self.setup.clone(), self.min_amount, self.conv, self.order, self.ymd_only);
         r.reserved = true;
-        r.total_prefixes = self.total_prefixes.clone();
-        r.total_first = self.total_first;
         Box::new(r)
     }
 
