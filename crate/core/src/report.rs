@@ -350,7 +350,7 @@ fn screen_threads(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: 
     // a second thread
     let core_free = AtomicBool::new(false);
     let take_whole = |on_calibration_thread: bool| beside.map_or_else(|| !whole_taken.swap(true, Ordering::AcqRel), |b| b == on_calibration_thread);
-    let ((Batteries { suppliers, counts, file_duplicates }, mine, theirs), (mut cal, beside)) = std::thread::scope(|sc| {
+    let ((Batteries { suppliers, counts, file_duplicates }, mine, theirs), (mut cal, whole_beside)) = std::thread::scope(|sc| {
         let calibration = sc.spawn(|| {
             let give = |c: Option<Calibrator>| {
                 *copy.0.lock().expect("copy") = Some(c);
@@ -392,9 +392,9 @@ fn screen_threads(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: 
             give(None); // nothing (more) to share
             // the whole file's battery beside the suppliers' (its duplicate groups, merged from
             // theirs, go in afterwards: a placeholder spares the search)
-            let beside = take_whole(true).then(|| whole_file_and_credits_in(ledger, opts, opts.battery.tests.amounts.then(Duplicates::default), WHOLE_BESIDE_PARTS));
+            let whole_beside = take_whole(true).then(|| whole_file_and_credits_in(ledger, opts, opts.battery.tests.amounts.then(Duplicates::default), WHOLE_BESIDE_PARTS));
             core_free.store(true, Ordering::Release);
-            (cal, beside)
+            (cal, whole_beside)
         });
         let mut b = supplier_batteries_with(ledger, opts, Some(&core_free)).0;
         let mine = take_whole(false).then(|| whole_file_and_credits(ledger, opts, b.file_duplicates.take()));
@@ -426,7 +426,7 @@ fn screen_threads(ledger: &Ledger, info: &IntakeInfo, min_amount: Amount, opts: 
         }
         ((b, mine, theirs), calibration.join().expect("calibration thread"))
     });
-    let (whole, credits) = match (mine, beside) {
+    let (whole, credits) = match (mine, whole_beside) {
         (Some(w), _) => w,
         (None, Some((mut whole, credits))) => {
             if let (Some(a), Some(d)) = (whole.tests.amount_checks.as_mut(), file_duplicates) {
