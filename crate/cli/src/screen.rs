@@ -75,7 +75,7 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
             let t = digitdrift_core::counts::read(&bytes).map_err(|e| format!("{file}: {e}"))?;
             let rep = digitdrift_core::counts::screen(&t, &sopts);
             if json {
-                crate::common::print_json(&rep)?;
+                crate::common::print_screen_json(rep)?;
             } else {
                 print!("{}", report::render_text(&rep));
             }
@@ -97,7 +97,7 @@ pub fn run(raw: &[String]) -> Result<u8, String> {
     let res = res?;
     let rep = report::screen_with(&res.ledger, &res.info, min, &sopts, cal);
     if json {
-        crate::common::print_json(&rep)?;
+        crate::common::print_screen_json(rep)?;
     } else {
         print!("{}", report::render_text(&rep));
     }
