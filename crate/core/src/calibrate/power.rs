@@ -189,8 +189,7 @@ impl Calibrator {
     pub fn power_curve_mixture(&mut self, uniform: &[f64], target: f64) -> Vec<PowerPoint> {
         let sims = self.opts.power_sims.max(1) as usize;
         self.ensure_honest();
-        // sampled a few hundred thousand times: a small guide table (quick to build) will do
-        let cat = Categorical::small(uniform);
+        let cat = Categorical::new(uniform);
         let alpha = self.alpha();
         let mut fab = vec![[0u32; PADDED]; sims]; // counts <= max_invoices
         let mut rngs: Vec<DetRng> = (0..sims as u64).map(|i| DetRng::stream(self.opts.seed, &[TAG_POWER, i])).collect();
