@@ -7,8 +7,9 @@ export CARGO_TERM_COLOR=never
 bash scripts/setup.sh
 step() { printf '\n===== %s =====\n' "$*"; }
 
-step "cargo test (core, CLI, demo generator)"
+step "cargo test (core, CLI, demo generator; the binding layer's own tests natively)"
 cargo test --workspace --exclude digitdrift-wasm
+cargo test -p digitdrift-wasm --lib
 
 step "release CLI for the outside checks"
 cargo build --release -p digitdrift -p digitdrift-demo-gen --bins
