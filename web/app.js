@@ -56,6 +56,11 @@
     pending.delete(m.id);
     if (m.ok) p.resolve(m.value); else p.reject(m.cancelled ? { cancelled: true } : new Error(m.error));
   };
+  // A screen's summary: JSON text from a ledger's screen (one string crosses from the Worker
+  // quicker than the objects would be cloned), objects from a count table's.
+  function report(screen) {
+    return typeof screen === 'string' ? JSON.parse(screen) : screen;
+  }
   function call(cmd, args, transfer) {
     const id = nextId++;
     return new Promise((resolve, reject) => {
@@ -125,8 +130,7 @@
   $('rescreen').addEventListener('click', async () => {
     if (!state.report) { $('settings-note').textContent = 'Open a ledger first.'; return; }
     $('settings-note').textContent = 'Screening…';
-    const rep = await call('rescreen', { settings: screenSettings() });
-    state.report = rep;
+    state.report = report(await call('rescreen', { settings: screenSettings() }));
     $('supplier-body').dataset.id = '';
     renderSupplierTable();
     $('settings-note').textContent = 'Screened again.';
@@ -168,10 +172,10 @@
         return;
       }
       state.intake = res.intake;
-      state.report = res.screen;
+      state.report = report(res.screen);
       state.calibrationWorkers = res.workers; // Workers that simulated the null tables (2, or 1 without a helper)
       state.calibrationPowerWorkers = res.powerWorkers; // ... and did the power work per supplier
-      state.selected = res.screen.suppliers.length ? res.screen.suppliers[0].id : null;
+      state.selected = state.report.suppliers.length ? state.report.suppliers[0].id : null;
       renderAccounting();
       renderSupplierTable();
       location.hash = '#suppliers';
