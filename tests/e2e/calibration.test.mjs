@@ -15,6 +15,28 @@ let browser;
 before(async () => { browser = await launch(); });
 after(async () => { await browser?.close(); });
 
+test('screening again with other settings gives the CLI\'s numbers for those settings', { skip: !existsSync(cli) && 'release CLI not built' }, async () => {
+  // reference: the native CLI with the same confidence and seed
+  const native = JSON.parse(execFileSync(cli, ['screen', demo, '--format', 'json', '--confidence', '0.99', '--seed', '7'], { maxBuffer: 1 << 30 }).toString());
+  const { page, requests, errors } = await openPage(browser);
+  await page.click('#demo');
+  await page.waitForSelector('body[data-loaded="yes"]', { timeout: 180_000 });
+  await page.click('#nav a[data-view="ledger"]');
+  await page.waitForFunction(() => !document.getElementById('view-ledger').hidden);
+  await page.click('#settings summary');
+  await page.selectOption('#set-confidence', '0.99');
+  await page.fill('#set-seed', '7');
+  await page.click('#rescreen');
+  await page.waitForFunction(() => document.getElementById('settings-note').textContent === 'Screened again.', null, { timeout: 180_000 });
+  const web = await page.evaluate(() => window.digitdrift.report.suppliers.map((s) => [s.name, s.verdict, s.first_two.mc_p_value, s.first_two.mad_critical, s.calibration.adjusted_p_value]));
+  assert.deepEqual(web, native.suppliers.map((s) => [s.name, s.verdict, s.first_two.mc_p_value, s.first_two.mad_critical, s.calibration.adjusted_p_value]));
+  assert.equal(await page.evaluate(() => window.digitdrift.report.calibration.confidence), 0.99);
+  const rows = await page.$$eval('#supplier-table tbody tr', (t) => t.length);
+  assert.ok(rows >= native.suppliers.length, `${rows} table rows`);
+  assert.deepEqual(networkRequests(requests), []);
+  assert.deepEqual(errors, []);
+});
+
 test('page (wasm) and CLI (native) agree exactly on calibrated results', { skip: !existsSync(cli) && 'release CLI not built' }, async () => {
   const native = JSON.parse(execFileSync(cli, ['screen', demo, '--format', 'json'], { maxBuffer: 1 << 30 }).toString());
   const { page, requests, errors } = await openPage(browser);
