@@ -21,8 +21,11 @@
     for (const kid of kids.flat()) if (kid !== null && kid !== undefined) e.append(kid instanceof Node ? kid : document.createTextNode(String(kid)));
     return e;
   }
-  const fmtInt = (n) => Number(n).toLocaleString('en-GB');
-  const fmtMoney = (x) => Number(x).toLocaleString('en-GB', { minimumFractionDigits: 2, maximumFractionDigits: 2 });
+  // one formatter each (toLocaleString with the same arguments builds a new one per call)
+  const intFormat = new Intl.NumberFormat('en-GB');
+  const moneyFormat = new Intl.NumberFormat('en-GB', { minimumFractionDigits: 2, maximumFractionDigits: 2 });
+  const fmtInt = (n) => intFormat.format(Number(n));
+  const fmtMoney = (x) => moneyFormat.format(Number(x));
   const fmtP = (p) => (p === null || p === undefined) ? '—' : (p < 1e-4 ? p.toExponential(1) : p.toFixed(4));
 
   // ---------- state ----------
