@@ -191,7 +191,7 @@ impl Categorical {
     }
 
     fn guided_chunk<C: Count>(&self, rng: &mut DetRng, n: u64, counts: &mut [C]) {
-        self.guided_with(&*self.guide, rng, n, counts)
+        self.guided_with(&self.guide, rng, n, counts)
     }
 
     #[inline(always)]
