@@ -126,9 +126,9 @@ fn sizes(ns: &[f64]) -> Vec<u64> {
 }
 
 /// The screen summary the page receives, as JSON text: the bulky per-bin arrays of the larger
-/// tests are left to `supplierDetail` ([`summary_value`]). Text for `JSON.parse` rather than
-/// objects made here: the Worker's last step of a 2M-row screen took 126 ms instead of 164 ms
-/// (Chromium, measured side by side 2026-12-05).
+/// tests are left to `supplierDetail` ([`summary_value`]). Text for the page's `JSON.parse`
+/// rather than objects made here and cloned to the page: the Worker's last step of a 2M-row
+/// screen 106-112 ms against 164 ms, the page's parse 26-30 ms (Chromium, 2026-12-05).
 fn screen_summary(rep: &mut report::ScreenReport) -> Result<JsValue, JsValue> {
     let v = summary_value(rep).map_err(err)?;
     Ok(JsValue::from_str(&serde_json::to_string(&v).map_err(err)?))
