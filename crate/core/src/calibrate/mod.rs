@@ -405,10 +405,7 @@ impl NullTable {
     /// Simulate `sims` honest samples of size n: for n [`on_path`], read off the honest paths
     /// ([`NullTable::simulate_paths`]); otherwise from the stream (seed, "null", n).
     pub fn simulate(benford: &Categorical, n: u64, sims: u32, seed: u64) -> NullTable {
-        if on_path(n) {
-            return NullTable::simulate_paths(benford, &[n], sims, seed).pop().expect("one table");
-        }
-        NullTable::simulate_own(benford, n, sims, seed)
+        NullTable::simulate_item(benford, &[n], sims, seed).pop().expect("one table")
     }
 
     /// The tables at sizes `ns` (each [`on_path`]), in that order, from `sims` honest paths:
