@@ -67,7 +67,7 @@ async function pageMode(file) {
     await new Promise((r) => setTimeout(r, 500)); // the helper Worker instantiates its module
     const file = document.getElementById('bench-file').files[0];
     const open = await call('open', { file, options: {}, settings: {} });
-    const pick = (m, v) => ({ workers: m.workers ?? v.workers, powerWorkers: m.powerWorkers ?? v.powerWorkers, timing: m.timing ?? v.timing, mc: (typeof v.screen === 'string' ? JSON.parse(v.screen) : v.screen).suppliers.map((s) => [s.calibration.mc_p_value, s.calibration.adjusted_p_value ?? -1, s.calibration.invoices_needed ?? -1]) });
+    const pick = (m, v) => ({ workers: m.workers ?? v.workers, powerWorkers: m.powerWorkers ?? v.powerWorkers, timing: m.timing ?? v.timing, mc: JSON.parse(v.screen).suppliers.map((s) => [s.calibration.mc_p_value, s.calibration.adjusted_p_value ?? -1, s.calibration.invoices_needed ?? -1]) });
     const runs = [Object.assign(pick({}, open.value), { ms: open.value.ms })];
     await call('keepTables', { on: false }); // every screen below from a cold calibrator
     for (const on of [false, true, false, true]) {
